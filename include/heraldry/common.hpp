@@ -1,0 +1,78 @@
+// Small vocabulary shared by every module: modes, unit conversions, error channels.
+#pragma once
+
+#include <cmath>
+#include <numbers>
+#include <stdexcept>
+#include <string>
+
+namespace heraldry {
+
+/// The two modes of the entangled pair. Mode A is Alice's (stays home in the one-way geometry),
+/// mode B is Bob's.
+enum class Mode { A, B };
+
+inline const char* to_string(Mode m) { return m == Mode::A ? "a" : "b"; }
+
+/// Squeezing parameter r from the squeezing in dB, S_dB = 10 log10(e^{2r}) (convention of
+/// PHYSICS.md §1.1: the squeezing parameter, not the noisy EPR variance).
+inline double squeezing_parameter_from_db(double db) { return db * std::numbers::ln10 / 20.0; }
+inline double squeezing_db_from_parameter(double r) { return r * 20.0 / std::numbers::ln10; }
+
+/// Power ratio from dB of loss: 10^{-dB/10}.
+inline double transmissivity_from_db(double loss_db) { return std::pow(10.0, -loss_db / 10.0); }
+inline double loss_db_from_transmissivity(double t) { return -10.0 * std::log10(t); }
+
+/// Bad input from the user: names where (file, line), the key, the value and what was expected.
+/// The command line maps it to exit code 2.
+class InputError : public std::runtime_error {
+public:
+  InputError(std::string file, int line, std::string key, std::string value, std::string expected,
+             std::string hint = {})
+      : std::runtime_error(format(file, line, key, value, expected, hint)),
+        file_(std::move(file)), line_(line), key_(std::move(key)), value_(std::move(value)),
+        expected_(std::move(expected)) {}
+  const std::string& file() const { return file_; }
+  int line() const { return line_; }
+  const std::string& key() const { return key_; }
+  const std::string& value() const { return value_; }
+  const std::string& expected() const { return expected_; }
+
+private:
+  static std::string format(const std::string& file, int line, const std::string& key,
+                            const std::string& value, const std::string& expected,
+                            const std::string& hint) {
+    std::string s = file.empty() ? std::string("<input>") : file;
+    if (line > 0) s += ":" + std::to_string(line);
+    s += ": key '" + key + "'";
+    if (!value.empty()) s += " = " + value;
+    s += ": expected " + expected;
+    if (!hint.empty()) s += " (" + hint + ")";
+    return s;
+  }
+  std::string file_;
+  int line_;
+  std::string key_, value_, expected_;
+};
+
+/// Outcome of a numerical evaluation; carried inside results, never thrown.
+enum class Status {
+  ok = 0,
+  truncation_budget_missed = 1,  ///< the truncation loss exceeds the tolerance at the allowed cutoff
+  herald_below_roundoff = 2,     ///< success probability too small to be resolved in double precision
+  not_computed = 3,              ///< the point has not been evaluated (yet)
+  invalid_result = 4             ///< a guard caught a probability or measure outside its range
+};
+
+inline const char* to_string(Status s) {
+  switch (s) {
+    case Status::ok: return "ok";
+    case Status::truncation_budget_missed: return "truncation budget missed";
+    case Status::herald_below_roundoff: return "herald probability below round-off";
+    case Status::not_computed: return "not computed";
+    case Status::invalid_result: return "invalid result";
+  }
+  return "unknown";
+}
+
+}  // namespace heraldry

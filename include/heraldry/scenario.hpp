@@ -1,0 +1,108 @@
+// A scenario: the user's description of a source, a link, counters, protocols and numerics,
+// typed and validated, in SI units. Only src/scenario knows the file format (TOML).
+#pragma once
+
+#include <map>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "heraldry/common.hpp"
+#include "heraldry/link.hpp"
+
+namespace heraldry::scenario {
+
+/// A numeric parameter: one value, or a swept list of values (each swept parameter adds an axis).
+struct Param {
+  std::vector<double> values;           // at least one value, SI units
+  bool swept() const { return values.size() > 1; }
+  double first() const { return values.front(); }
+};
+
+struct Source {
+  double frequency_hz = 5.0e9;
+  double squeezing_db = 6.0;            // squeezing parameter in dB: r = dB ln(10) / 20
+  double thermal_photons = 0.0;         // per mode, at the source
+  double bandwidth_hz = 1.0e6;          // mode rate; bounds the trial rate
+};
+
+struct Link {
+  link::LinkModel model;                // frequency copied from the source
+  std::vector<double> distances_m;      // the distance axis (a single 0 for [link.direct])
+  double target_m = 0.0;                // the distance the verdict talks about
+};
+
+enum class CounterKind { threshold, resolving };
+
+struct Counter {
+  std::string name;
+  CounterKind kind = CounterKind::threshold;
+  Param efficiency;                     // in [0, 1]
+  Param dark_per_gate;                  // per-gate dark probability (threshold) or mean dark
+                                        // counts per gate (resolving); from dark_rate_hz x gate
+                                        // when given as a rate
+  std::optional<Param> dark_rate_hz;    // as written by the user, if given as a rate
+  double gate_s = 1.0e-6;
+  double reset_s = 0.0;                 // dead time after a gate
+};
+
+enum class StepKind { link, tap, add, amplify, scissors, loss };
+const char* to_string(StepKind k);
+
+/// One step of a protocol. Parameters are keyed by their scenario names (e.g. "transmissivity",
+/// "gain", "squeezing", "photon_source_efficiency", "temperature_k") in SI units.
+struct Step {
+  StepKind kind = StepKind::link;
+  Mode mode = Mode::B;                  // the mode the step acts on (not used by link)
+  std::string counter;                  // tap, add, scissors: the name of a [counters.X] table
+  int counts = 1;                       // tap with a resolving counter: herald on exactly this many
+  int max_photons = 0;                  // amplify: the N of the physical realisation (0: ideal)
+  std::map<std::string, Param> params;
+  int line = 0;                         // line in the scenario file (for messages)
+};
+
+struct Protocol {
+  std::string name;
+  std::vector<Step> steps;
+};
+
+enum class EngineKind { sector, dense };
+
+struct Numerics {
+  EngineKind engine = EngineKind::sector;
+  int cutoff = 0;                       // per-mode photon-number cutoff; 0 means "auto"
+  double tolerance = 1e-10;             // truncation budget for "auto"
+  int threads = 0;                      // 0: OMP_NUM_THREADS or all cores
+  double max_memory_mb = 4096.0;        // the auto cutoff refuses to exceed this per state
+};
+
+struct Output {
+  std::string file = "data_out/result.h5";
+  std::optional<double> heralds_wanted; // heralded pairs the user wants to collect
+};
+
+struct Scenario {
+  std::string title;
+  std::string path;                     // where it was read from ("<demo>" for the built-in one)
+  std::string text;                     // the file verbatim (stored in the results)
+  Source source;
+  Link link;
+  std::vector<Counter> counters;
+  std::vector<Protocol> protocols;
+  Numerics numerics;
+  Output output;
+
+  const Counter* find_counter(std::string_view name) const;
+};
+
+/// Parses and validates a scenario. Throws InputError naming file, line, key, value and what was
+/// expected (for an unknown key, the closest known one).
+Scenario parse(std::string_view text, const std::string& file_name);
+/// Reads a file and parses it; an unreadable file is an InputError too.
+Scenario load(const std::string& path);
+/// The built-in demo scenario (protocols/demo.toml, compiled in).
+std::string_view demo_text();
+Scenario demo();
+
+}  // namespace heraldry::scenario

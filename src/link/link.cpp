@@ -1,0 +1,1 @@
+#include "heraldry/link.hpp"
