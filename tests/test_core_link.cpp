@@ -316,8 +316,9 @@ TEST_CASE(
 TEST_CASE("Log-negativity and fidelity versus distance reproduce the tabulated values") {
   // TMST r = 1, n_th = 0.01; air at 300 K (n = 1249.697 at 5 GHz), fixed 0.00871 dB/km
   // (mu = 2.00555e-6 1/m, the table's "2.006e-6" rounded; with mu = 2.006e-6 exactly the
-  // table is missed by up to 2.7e-4), no antenna. Table of PHYSICS.md §2.6 (independent numpy computation from
-  // the closed forms E_N = -log2 nu~_- and F = 2/(2 + a + b - 2c)), printed with 6 decimals.
+  // table is missed by up to 2.7e-4), no antenna. Table of PHYSICS.md §2.6 (independent numpy
+  // computation from the closed forms E_N = -log2 nu~_- and F = 2/(2 + a + b - 2c)), printed
+  // with 6 decimals.
   struct Row {
     double l, en_asym, f_asym, en_sym, f_sym;
   };
