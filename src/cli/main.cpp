@@ -1,3 +1,50 @@
-// heraldry command line: placeholder until the commands land.
+// heraldry: command-line entry point. Parses arguments with CLI11 and dispatches to the commands;
+// maps input errors to exit code 2.
+#include <CLI/CLI.hpp>
+
 #include <cstdio>
-int main() { std::puts("heraldry " HERALDRY_VERSION); return 0; }
+#include <exception>
+#include <iostream>
+
+#include "cli/commands.hpp"
+#include "heraldry/common.hpp"
+
+int main(int argc, char** argv) {
+  using namespace heraldry;
+  CLI::App app{"heraldry: does a heralded distillation stage pay off on my microwave link?"};
+  app.set_version_flag("--version", std::string("heraldry ") + HERALDRY_VERSION);
+  app.require_subcommand(1);
+
+  std::string scenario;
+  auto* example = app.add_subcommand("example", "print the demo scenario, to copy and edit");
+  auto* check = app.add_subcommand("check", "validate a scenario and report the cutoff it needs");
+  check->add_option("scenario", scenario, "scenario file (TOML)")->required();
+  auto* link = app.add_subcommand("link", "link budget and Gaussian figures versus distance");
+  link->add_option("scenario", scenario, "scenario file (TOML)")->required();
+
+  cli::ProbeOptions probe_opts;
+  auto* probe = app.add_subcommand("probe", "every protocol's figures at one distance");
+  probe->add_option("scenario", probe_opts.scenario, "scenario file (TOML)")->required();
+  probe->add_option("--at", probe_opts.at_m, "distance in metres (default: the scenario's target_m)");
+  probe->add_flag("--json", probe_opts.json, "print one JSON object");
+
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::ParseError& e) {
+    return app.exit(e) == 0 ? 0 : 2;
+  }
+
+  try {
+    if (*example) return cli::cmd_example();
+    if (*check) return cli::cmd_check(scenario);
+    if (*link) return cli::cmd_link(scenario);
+    if (*probe) return cli::cmd_probe(probe_opts);
+  } catch (const InputError& e) {
+    std::fprintf(stderr, "heraldry: error: %s\n", e.what());
+    return 2;
+  } catch (const std::exception& e) {
+    std::fprintf(stderr, "heraldry: internal error: %s\n", e.what());
+    return 1;
+  }
+  return 0;
+}
