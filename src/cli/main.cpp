@@ -22,6 +22,16 @@ int main(int argc, char** argv) {
   auto* link = app.add_subcommand("link", "link budget and Gaussian figures versus distance");
   link->add_option("scenario", scenario, "scenario file (TOML)")->required();
 
+  cli::RunOptions run_opts;
+  auto* run = app.add_subcommand("run", "the main job: sweep, HDF5 results, verdict (default: the built-in demo)");
+  run->add_option("scenario", run_opts.scenario, "scenario file (TOML); without it the built-in demo");
+  run->add_option("-o,--output", run_opts.output, "result file (overrides [output] file)");
+  run->add_option("-t,--threads", run_opts.threads, "threads (overrides [numerics] threads and OMP_NUM_THREADS)")
+      ->check(CLI::PositiveNumber);
+  run->add_flag("--force", run_opts.force, "overwrite an existing result file");
+  run->add_option("--stop-after", run_opts.stop_after, "stop after this many new points, keeping the checkpoint (testing)")
+      ->group("");
+
   cli::ProbeOptions probe_opts;
   auto* probe = app.add_subcommand("probe", "every protocol's figures at one distance");
   probe->add_option("scenario", probe_opts.scenario, "scenario file (TOML)")->required();
@@ -39,11 +49,12 @@ int main(int argc, char** argv) {
     if (*check) return cli::cmd_check(scenario);
     if (*link) return cli::cmd_link(scenario);
     if (*probe) return cli::cmd_probe(probe_opts);
+    if (*run) return cli::cmd_run(run_opts);
   } catch (const InputError& e) {
     std::fprintf(stderr, "heraldry: error: %s\n", e.what());
     return 2;
   } catch (const std::exception& e) {
-    std::fprintf(stderr, "heraldry: internal error: %s\n", e.what());
+    std::fprintf(stderr, "heraldry: error: %s\n", e.what());
     return 1;
   }
   return 0;

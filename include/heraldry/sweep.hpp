@@ -1,0 +1,65 @@
+// Sweeps: the grid of points of every protocol (distance x each swept parameter), the mapping of a
+// scenario point to the physics kernel's resolved PointSpec, and the dispatcher that evaluates
+// points in parallel (OpenMP lives only in src/sweep/dispatch.cpp).
+#pragma once
+
+#include <cstddef>
+#include <functional>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "heraldry/scenario.hpp"
+#include "heraldry/steps.hpp"
+
+namespace heraldry::sweep {
+
+/// One axis of a protocol's grid. axes[0] is always the distance.
+struct Axis {
+  std::string name;      // "distance_m", "step2.transmissivity", "counters.lab.efficiency"
+  std::string units;     // "m", "1", "Hz", ...
+  std::string description;
+  std::vector<double> values;
+  // Where the axis comes from (for resolve): a step parameter or a counter parameter.
+  int step = -1;         // index into Protocol::steps, or -1
+  int counter = -1;      // index into Scenario::counters, or -1
+  std::string key;       // parameter key in the step, or "efficiency" / "dark_per_gate"
+};
+
+struct ProtocolPlan {
+  std::string name;
+  std::vector<Axis> axes;
+  std::vector<std::size_t> shape() const;
+  std::size_t size() const;
+  /// Row-major multi-index of a flat point index (distance slowest).
+  std::vector<std::size_t> unflatten(std::size_t flat) const;
+};
+
+struct Plan {
+  std::vector<ProtocolPlan> protocols;
+  std::size_t total_points() const;
+};
+
+Plan make_plan(const scenario::Scenario& sc);
+
+/// The resolved point of protocol p at a multi-index; `distance_m` (if >= 0) replaces the grid
+/// distance (used to refine crossings between grid points).
+steps::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
+                         std::span<const std::size_t> index, double distance_m = -1.0);
+
+/// Trials per second of protocol p: the source bandwidth and the counters it uses.
+double trial_rate_hz(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
+                     std::span<const std::size_t> index);
+
+/// Number of threads the dispatcher uses: `requested` if > 0, else OMP_NUM_THREADS / all cores.
+int thread_count(int requested);
+
+/// Evaluates `todo` (flat indices into a list of jobs) with `threads` threads; `evaluate(job)`
+/// must be thread-safe and write its own result slot. Returns after every job in `todo` has
+/// been evaluated, or earlier (with the done ones marked) when `stop()` returns true between
+/// chunks. `after_chunk` runs on the calling thread between chunks (checkpoints, progress).
+void dispatch(std::span<const std::size_t> todo, int threads,
+              const std::function<void(std::size_t job)>& evaluate,
+              const std::function<bool()>& stop, const std::function<void(std::size_t done)>& after_chunk);
+
+}  // namespace heraldry::sweep

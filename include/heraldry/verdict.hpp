@@ -1,0 +1,48 @@
+// The verdict: at the target distance, does each protocol beat the bare link, at what rate, and
+// up to which distance?
+#pragma once
+
+#include <optional>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "heraldry/common.hpp"
+#include "heraldry/crossing.hpp"
+
+namespace heraldry::verdict {
+
+struct ProtocolVerdict {
+  std::string name;
+  Status status = Status::not_computed;   // of the evaluation at the target
+  double success_probability = 0.0;
+  double heralding_rate_hz = 0.0;
+  double false_herald_fraction = 0.0;
+  double log_negativity = 0.0;
+  double fidelity = 0.0;
+  double truncation_error = 0.0;
+  int cutoff = 0;
+  /// Distance where the protocol stops beating the bare link, in E_N and in fidelity.
+  Crossing breakeven_log_negativity;
+  Crossing breakeven_fidelity;
+  /// The largest distance with fidelity above 1/2.
+  Crossing fidelity_half;
+  /// For swept parameters: the setting with the largest E_N at the target (name, value).
+  std::vector<std::pair<std::string, double>> best;
+  std::optional<double> seconds_for_heralds;  // [output] heralds_wanted / heralding rate
+  std::size_t failed_points = 0;              // grid points whose status is not ok
+  bool pays_off_log_negativity = false;
+  bool pays_off_fidelity = false;
+  std::string summary;                        // one line in words
+};
+
+struct Verdict {
+  double target_m = 0.0;
+  double bare_log_negativity = 0.0;           // Gaussian layer, at the target
+  double bare_fidelity = 0.0;
+  Crossing survival;                          // bare link: E_N > 0 up to
+  Crossing fidelity_half;                     // bare link: F > 1/2 up to
+  std::vector<ProtocolVerdict> protocols;
+};
+
+}  // namespace heraldry::verdict

@@ -1,0 +1,109 @@
+// `heraldry link SCENARIO`: the link budget and the Gaussian (no distillation) figures versus
+// distance, with the distances where entanglement and fidelity above 1/2 end.
+#include <cmath>
+#include <cstdio>
+#include <vector>
+
+#include "cli/commands.hpp"
+#include "heraldry/crossing.hpp"
+#include "heraldry/gaussian.hpp"
+#include "heraldry/link.hpp"
+#include "heraldry/scenario.hpp"
+
+namespace heraldry::cli {
+
+namespace {
+
+gaussian::StandardForm link_state(const scenario::Scenario& sc, const link::LinkBudget& budget) {
+  const double r = squeezing_parameter_from_db(sc.source.squeezing_db);
+  auto s = gaussian::tmst(r, sc.source.thermal_photons);
+  s = gaussian::apply(s, Mode::A, budget.a.channel);
+  return gaussian::apply(s, Mode::B, budget.b.channel);
+}
+
+// The PLOB bound of the link: the one-way channel, or the weaker arm for the midpoint geometry
+// (each arm is a cut between the two receivers).
+double link_plob(const link::LinkBudget& b, link::Geometry g) {
+  const double pb = gaussian::plob_bound(b.b.channel);
+  return g == link::Geometry::midpoint ? std::min(gaussian::plob_bound(b.a.channel), pb) : pb;
+}
+
+void print_crossing(const char* what, const Crossing& c) {
+  switch (c.kind) {
+    case Crossing::Kind::crossed: std::printf("%s: %.4g m\n", what, c.distance); break;
+    case Crossing::Kind::never_positive:
+      std::printf("%s: none on the grid (already lost at %.4g m)\n", what, c.distance);
+      break;
+    case Crossing::Kind::beyond_grid:
+      std::printf("%s: beyond the grid (still there at %.4g m)\n", what, c.distance);
+      break;
+  }
+}
+
+}  // namespace
+
+int cmd_link(const std::string& path) {
+  const scenario::Scenario sc = scenario::load(path);
+  const auto& model = sc.link.model;
+  const auto& grid = sc.link.distances_m;
+
+  std::printf("# %s\n", sc.title.c_str());
+  std::printf("# %.4g GHz, squeezing %.3g dB, %.3g thermal photons at the source; %s, %s\n",
+              sc.source.frequency_hz * 1e-9, sc.source.squeezing_db, sc.source.thermal_photons,
+              model.medium == link::Medium::air ? "open air" : "cryogenic line",
+              model.geometry == link::Geometry::one_way ? "one-way (a stays, b travels)"
+                                                         : "midpoint (each mode travels d/2)");
+  std::printf("# loss in dB of the travelling mode %s by cause; noise = thermal photons added, (1 - tau) n_E\n",
+              model.geometry == link::Geometry::one_way ? "b" : "(per arm)");
+  std::printf("%10s %9s %9s %9s %9s %9s %11s %10s %11s %10s %9s %9s %9s\n", "distance_m", "beam_dB",
+              "air_dB", "rain_dB", "iface_dB", "line_dB", "tau_a", "noise_a", "tau_b", "noise_b", "E_N",
+              "fidelity", "PLOB");
+  std::vector<double> signed_en, fid_margin;
+  for (double d : grid) {
+    const link::LinkBudget b = link::link_budget(model, d);
+    const auto s = link_state(sc, b);
+    const auto& l = b.b.loss;
+    const double na = (1.0 - b.a.channel.transmissivity) * b.a.channel.bath_photons;
+    const double nb = (1.0 - b.b.channel.transmissivity) * b.b.channel.bath_photons;
+    std::printf("%10.4g %9.3g %9.3g %9.3g %9.3g %9.3g %11.8f %10.4g %11.8f %10.4g %9.5f %9.5f %9.4g\n", d,
+                l.beam_db, l.air_db, l.rain_db, l.interface_db, l.line_db, b.a.channel.transmissivity, na,
+                b.b.channel.transmissivity, nb, gaussian::log_negativity(s), gaussian::fidelity(s),
+                link_plob(b, model.geometry));
+    signed_en.push_back(-std::log2(gaussian::smallest_pt_symplectic(s)));
+    fid_margin.push_back(gaussian::fidelity(s) - 0.5);
+  }
+  if (grid.size() > 1) {
+    auto en_at = [&](double d) {
+      return -std::log2(gaussian::smallest_pt_symplectic(link_state(sc, link::link_budget(model, d))));
+    };
+    auto f_at = [&](double d) { return gaussian::fidelity(link_state(sc, link::link_budget(model, d))) - 0.5; };
+    print_crossing("entanglement survives (E_N > 0) up to", last_downward_crossing(en_at, grid, signed_en));
+    print_crossing("teleportation beats the classical 1/2 up to", last_downward_crossing(f_at, grid, fid_margin));
+  }
+  return 0;
+}
+
+int cmd_example() {
+  const auto text = scenario::demo_text();
+  std::fwrite(text.data(), 1, text.size(), stdout);
+  return 0;
+}
+
+int cmd_check(const std::string& path) {
+  const scenario::Scenario sc = scenario::load(path);
+  std::size_t points = 0;
+  std::printf("%s: valid scenario \"%s\"\n", path.c_str(), sc.title.c_str());
+  std::printf("  distances: %zu (%.4g m to %.4g m), target %.4g m\n", sc.link.distances_m.size(),
+              sc.link.distances_m.front(), sc.link.distances_m.back(), sc.link.target_m);
+  for (const auto& p : sc.protocols) {
+    std::size_t n = sc.link.distances_m.size();
+    for (const auto& step : p.steps)
+      for (const auto& [key, param] : step.params) n *= param.values.size();
+    points += n;
+    std::printf("  protocol \"%s\": %zu steps, %zu points\n", p.name.c_str(), p.steps.size(), n);
+  }
+  std::printf("  total: %zu points\n", points);
+  return 0;
+}
+
+}  // namespace heraldry::cli

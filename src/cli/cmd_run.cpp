@@ -1,0 +1,45 @@
+// `heraldry run [SCENARIO]`: the main job.
+#include <csignal>
+#include <cstdio>
+#include <unistd.h>
+
+#include "cli/commands.hpp"
+#include "heraldry/run.hpp"
+#include "heraldry/scenario.hpp"
+
+namespace heraldry::cli {
+
+namespace {
+extern "C" void on_signal(int) { run::request_stop(); }
+}  // namespace
+
+int cmd_run(const RunOptions& options) {
+  const scenario::Scenario sc = options.scenario.empty() ? scenario::demo() : scenario::load(options.scenario);
+  run::Options ro;
+  ro.output = options.output;
+  ro.threads = options.threads;
+  ro.force = options.force;
+  ro.stop_after_points = options.stop_after;
+  ro.progress = isatty(STDERR_FILENO) != 0;
+  ro.version = HERALDRY_VERSION;
+  std::signal(SIGINT, on_signal);
+  std::signal(SIGTERM, on_signal);
+
+  std::fprintf(stderr, "heraldry run: %s\n", sc.title.c_str());
+  const run::Summary s = run::execute(sc, ro);
+  if (s.interrupted) {
+    std::fprintf(stderr,
+                 "heraldry run: stopped after %zu new points (%zu of %zu done); checkpoint kept in %s\n"
+                 "  run the same command again to resume\n",
+                 s.computed_points, s.computed_points + s.resumed_points, s.total_points, s.file.c_str());
+    return 130;
+  }
+  std::fprintf(stderr, "heraldry run: %zu points (%zu resumed) in %.2f s on %d threads, %.1f points/s -> %s\n",
+               s.total_points, s.resumed_points, s.seconds, s.threads,
+               s.computed_points / (s.seconds > 0 ? s.seconds : 1.0), s.file.c_str());
+  const std::string text = run::format_verdict(sc, *s.data.verdict);
+  std::fwrite(text.data(), 1, text.size(), stdout);
+  return s.failed_points > 0 ? 3 : 0;
+}
+
+}  // namespace heraldry::cli

@@ -1,0 +1,59 @@
+// The one place with OpenMP: points are evaluated in chunks with a dynamic schedule (points
+// differ in cost: the cutoff grows with squeezing and noise); between chunks the calling thread
+// may checkpoint and report progress. Results land in per-job slots, so they do not depend on
+// the thread count or the schedule.
+#include <algorithm>
+#include <cstdlib>
+#include <exception>
+#include <mutex>
+#include <string>
+#include <thread>
+
+#include "heraldry/sweep.hpp"
+
+#if defined(HERALDRY_HAVE_OPENMP)
+#include <omp.h>
+#endif
+
+namespace heraldry::sweep {
+
+int thread_count(int requested) {
+  if (requested > 0) return requested;
+#if defined(HERALDRY_HAVE_OPENMP)
+  return std::max(1, omp_get_max_threads());
+#else
+  return 1;
+#endif
+}
+
+void dispatch(std::span<const std::size_t> todo, int threads,
+              const std::function<void(std::size_t job)>& evaluate, const std::function<bool()>& stop,
+              const std::function<void(std::size_t done)>& after_chunk) {
+  threads = std::max(1, threads);
+  // Chunks of a few points per thread keep checkpoints frequent and the tail short.
+  const std::size_t chunk = static_cast<std::size_t>(threads) * 8;
+  std::size_t done = 0;
+  while (done < todo.size()) {
+    if (stop && stop()) return;
+    const std::size_t end = std::min(todo.size(), done + chunk);
+    std::exception_ptr failure;
+    std::mutex failure_mutex;
+    const long long first = static_cast<long long>(done), last = static_cast<long long>(end);
+#if defined(HERALDRY_HAVE_OPENMP)
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+#endif
+    for (long long i = first; i < last; ++i) {
+      try {
+        evaluate(todo[static_cast<std::size_t>(i)]);
+      } catch (...) {
+        std::lock_guard<std::mutex> lock(failure_mutex);
+        if (!failure) failure = std::current_exception();
+      }
+    }
+    if (failure) std::rethrow_exception(failure);
+    done = end;
+    if (after_chunk) after_chunk(done);
+  }
+}
+
+}  // namespace heraldry::sweep

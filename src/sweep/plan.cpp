@@ -1,0 +1,178 @@
+// The grid of a scenario and the mapping of one grid point to the physics kernel's PointSpec.
+#include <algorithm>
+#include <cmath>
+#include <stdexcept>
+
+#include "heraldry/sweep.hpp"
+
+namespace heraldry::sweep {
+
+namespace {
+
+const char* units_of(const std::string& key) {
+  if (key == "temperature_k") return "K";
+  return "1";
+}
+
+std::string describe_step_param(const scenario::Step& step, const std::string& key) {
+  return std::string(scenario::to_string(step.kind)) + " on mode " + to_string(step.mode) + ": " + key;
+}
+
+bool protocol_uses_counter(const scenario::Protocol& p, const std::string& name) {
+  return std::any_of(p.steps.begin(), p.steps.end(), [&](const scenario::Step& s) { return s.counter == name; });
+}
+
+steps::StepKind kind_of(scenario::StepKind k) {
+  switch (k) {
+    case scenario::StepKind::link: return steps::StepKind::link;
+    case scenario::StepKind::tap: return steps::StepKind::tap;
+    case scenario::StepKind::add: return steps::StepKind::add;
+    case scenario::StepKind::amplify: return steps::StepKind::amplify;
+    case scenario::StepKind::scissors: return steps::StepKind::scissors;
+    case scenario::StepKind::loss: return steps::StepKind::loss;
+  }
+  throw std::logic_error("unknown step kind");
+}
+
+}  // namespace
+
+std::vector<std::size_t> ProtocolPlan::shape() const {
+  std::vector<std::size_t> s;
+  for (const auto& a : axes) s.push_back(a.values.size());
+  return s;
+}
+
+std::size_t ProtocolPlan::size() const {
+  std::size_t n = 1;
+  for (const auto& a : axes) n *= a.values.size();
+  return n;
+}
+
+std::vector<std::size_t> ProtocolPlan::unflatten(std::size_t flat) const {
+  std::vector<std::size_t> idx(axes.size());
+  for (std::size_t i = axes.size(); i-- > 0;) {
+    idx[i] = flat % axes[i].values.size();
+    flat /= axes[i].values.size();
+  }
+  return idx;
+}
+
+std::size_t Plan::total_points() const {
+  std::size_t n = 0;
+  for (const auto& p : protocols) n += p.size();
+  return n;
+}
+
+Plan make_plan(const scenario::Scenario& sc) {
+  Plan plan;
+  for (const auto& proto : sc.protocols) {
+    ProtocolPlan pp;
+    pp.name = proto.name;
+    pp.axes.push_back({"distance_m", "m", "distance between source and receiver (one-way) or between the receivers (midpoint)",
+                       sc.link.distances_m, -1, -1, ""});
+    for (std::size_t s = 0; s < proto.steps.size(); ++s) {
+      for (const auto& [key, param] : proto.steps[s].params) {
+        if (!param.swept()) continue;
+        pp.axes.push_back({"step" + std::to_string(s + 1) + "." + key, units_of(key),
+                           describe_step_param(proto.steps[s], key), param.values, static_cast<int>(s), -1, key});
+      }
+    }
+    for (std::size_t c = 0; c < sc.counters.size(); ++c) {
+      const auto& counter = sc.counters[c];
+      if (!protocol_uses_counter(proto, counter.name)) continue;
+      if (counter.efficiency.swept())
+        pp.axes.push_back({"counters." + counter.name + ".efficiency", "1", "counter efficiency",
+                           counter.efficiency.values, -1, static_cast<int>(c), "efficiency"});
+      if (counter.dark_per_gate.swept())
+        pp.axes.push_back({"counters." + counter.name + ".dark_per_gate", "1",
+                           counter.kind == scenario::CounterKind::threshold ? "dark-click probability per gate"
+                                                                           : "mean dark counts per gate",
+                           counter.dark_per_gate.values, -1, static_cast<int>(c), "dark_per_gate"});
+    }
+    plan.protocols.push_back(std::move(pp));
+  }
+  return plan;
+}
+
+namespace {
+
+// The value of a step or counter parameter at this grid point: the swept axis value, or the
+// parameter's only value.
+double value_at(const ProtocolPlan& pp, std::span<const std::size_t> index, int step, int counter,
+                const std::string& key, const scenario::Param& param) {
+  for (std::size_t a = 1; a < pp.axes.size(); ++a) {
+    const Axis& ax = pp.axes[a];
+    if (ax.step == step && ax.counter == counter && ax.key == key) return ax.values[index[a]];
+  }
+  return param.first();
+}
+
+}  // namespace
+
+steps::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
+                         std::span<const std::size_t> index, double distance_m) {
+  const ProtocolPlan& pp = plan.protocols.at(protocol);
+  const scenario::Protocol& proto = sc.protocols.at(protocol);
+  if (index.size() != pp.axes.size()) throw std::invalid_argument("resolve: index rank differs from the grid");
+  const double d = distance_m >= 0.0 ? distance_m : pp.axes[0].values[index[0]];
+
+  steps::PointSpec spec;
+  spec.squeezing_r = squeezing_parameter_from_db(sc.source.squeezing_db);
+  spec.thermal_photons = sc.source.thermal_photons;
+  const link::LinkBudget budget = link::link_budget(sc.link.model, d);
+  spec.channel_a = budget.a.channel;
+  spec.channel_b = budget.b.channel;
+
+  std::vector<int> counter_slot(sc.counters.size(), -1);
+  for (std::size_t s = 0; s < proto.steps.size(); ++s) {
+    const scenario::Step& step = proto.steps[s];
+    steps::StepSpec out;
+    out.kind = kind_of(step.kind);
+    out.mode = step.mode;
+    out.counts = step.counts;
+    out.max_photons = step.max_photons;
+    const int si = static_cast<int>(s);
+    auto param = [&](const std::string& key, double fallback) {
+      const auto it = step.params.find(key);
+      return it == step.params.end() ? fallback : value_at(pp, index, si, -1, key, it->second);
+    };
+    out.transmissivity = param("transmissivity", 1.0);
+    out.gain = param("gain", 1.0);
+    out.squeezing = param("squeezing", 0.0);
+    out.photon_source_efficiency = param("photon_source_efficiency", 1.0);
+    if (step.kind == scenario::StepKind::loss)
+      out.bath_photons = link::planck_occupation(sc.source.frequency_hz, param("temperature_k", 0.0));
+    if (!step.counter.empty()) {
+      const auto it = std::find_if(sc.counters.begin(), sc.counters.end(),
+                                   [&](const scenario::Counter& c) { return c.name == step.counter; });
+      if (it == sc.counters.end()) throw std::logic_error("resolve: undefined counter survived validation");
+      const std::size_t ci = static_cast<std::size_t>(it - sc.counters.begin());
+      if (counter_slot[ci] < 0) {
+        steps::CounterModel m;
+        m.kind = it->kind == scenario::CounterKind::threshold ? steps::CounterKind::threshold
+                                                              : steps::CounterKind::resolving;
+        m.efficiency = value_at(pp, index, -1, static_cast<int>(ci), "efficiency", it->efficiency);
+        m.dark = value_at(pp, index, -1, static_cast<int>(ci), "dark_per_gate", it->dark_per_gate);
+        m.gate_s = it->gate_s;
+        m.reset_s = it->reset_s;
+        counter_slot[ci] = static_cast<int>(spec.counters.size());
+        spec.counters.push_back(m);
+      }
+      out.counter = counter_slot[ci];
+    }
+    spec.steps.push_back(out);
+  }
+  spec.engine = sc.numerics.engine == scenario::EngineKind::dense ? fock::Engine::dense : fock::Engine::sector;
+  spec.cutoff = sc.numerics.cutoff;
+  spec.tolerance = sc.numerics.tolerance;
+  spec.max_memory_bytes = sc.numerics.max_memory_mb * 1024.0 * 1024.0;
+  return spec;
+}
+
+double trial_rate_hz(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
+                     std::span<const std::size_t> index) {
+  const steps::PointSpec spec = resolve(sc, plan, protocol, index);
+  return steps::trial_rate_hz(sc.source.bandwidth_hz, steps::counters_used(spec.steps, spec.counters));
+}
+
+}  // namespace heraldry::sweep

@@ -1,0 +1,332 @@
+// The main job: grid, checkpoint/resume, dispatch, verdict, final file.
+#include <algorithm>
+#include <atomic>
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <ctime>
+#include <filesystem>
+#include <limits>
+#include <sstream>
+
+#include "heraldry/gaussian.hpp"
+#include "heraldry/run.hpp"
+
+namespace heraldry::run {
+
+namespace {
+
+std::atomic<bool> stop_requested{false};
+
+using Clock = std::chrono::steady_clock;
+
+std::string utc_now() {
+  const std::time_t t = std::time(nullptr);
+  char buf[32];
+  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", std::gmtime(&t));
+  return buf;
+}
+
+gaussian::StandardForm bare_state(const scenario::Scenario& sc, double distance_m) {
+  const link::LinkBudget b = link::link_budget(sc.link.model, distance_m);
+  auto s = gaussian::tmst(squeezing_parameter_from_db(sc.source.squeezing_db), sc.source.thermal_photons);
+  s = gaussian::apply(s, Mode::A, b.a.channel);
+  return gaussian::apply(s, Mode::B, b.b.channel);
+}
+
+// Signed log-negativity -log2 nu~_- (negative when separable): smooth through the threshold,
+// so root finding can refine where E_N vanishes.
+double bare_signed_log_negativity(const scenario::Scenario& sc, double d) {
+  return -std::log2(gaussian::smallest_pt_symplectic(bare_state(sc, d)));
+}
+
+bool usable(const steps::PointResult& r) { return r.status == Status::ok; }
+
+}  // namespace
+
+void request_stop() { stop_requested.store(true); }
+
+output::LinkTable link_table(const scenario::Scenario& sc) {
+  output::LinkTable t;
+  for (double d : sc.link.distances_m) {
+    const link::LinkBudget b = link::link_budget(sc.link.model, d);
+    const auto s = bare_state(sc, d);
+    t.transmissivity_a.push_back(b.a.channel.transmissivity);
+    t.transmissivity_b.push_back(b.b.channel.transmissivity);
+    t.bath_photons_a.push_back(b.a.channel.bath_photons);
+    t.bath_photons_b.push_back(b.b.channel.bath_photons);
+    t.negativity.push_back(gaussian::negativity(s));
+    t.log_negativity.push_back(gaussian::log_negativity(s));
+    t.fidelity.push_back(gaussian::fidelity(s));
+    double plob = gaussian::plob_bound(b.b.channel), rci = gaussian::rci_bound(b.b.channel);
+    if (sc.link.model.geometry == link::Geometry::midpoint) {
+      // Each arm is a cut between the receivers: the weaker arm bounds the pair.
+      plob = std::min(plob, gaussian::plob_bound(b.a.channel));
+      rci = std::min(rci, gaussian::rci_bound(b.a.channel));
+    }
+    // A lossless path has an unbounded capacity; the file stores the largest double instead of inf.
+    t.plob_ebits.push_back(std::isinf(plob) ? std::numeric_limits<double>::max() : plob);
+    t.rci_ebits.push_back(std::isinf(rci) ? std::numeric_limits<double>::max() : rci);
+  }
+  return t;
+}
+
+verdict::Verdict compute_verdict(const scenario::Scenario& sc, const sweep::Plan& plan, const output::RunData& data) {
+  verdict::Verdict v;
+  const auto& grid = sc.link.distances_m;
+  v.target_m = sc.link.target_m;
+  const auto target_state = bare_state(sc, v.target_m);
+  v.bare_log_negativity = gaussian::log_negativity(target_state);
+  v.bare_fidelity = gaussian::fidelity(target_state);
+  if (grid.size() > 1) {
+    v.survival = last_downward_crossing([&](double d) { return bare_signed_log_negativity(sc, d); }, grid);
+    v.fidelity_half = last_downward_crossing([&](double d) { return gaussian::fidelity(bare_state(sc, d)) - 0.5; }, grid);
+  }
+
+  for (std::size_t p = 0; p < plan.protocols.size(); ++p) {
+    const sweep::ProtocolPlan& pp = plan.protocols[p];
+    const output::ProtocolTable& table = data.protocols.at(p);
+    verdict::ProtocolVerdict pv;
+    pv.name = pp.name;
+    for (std::size_t i = 0; i < table.points.size(); ++i)
+      if (!table.done[i] || !usable(table.points[i])) ++pv.failed_points;
+
+    // Every setting of the swept parameters, evaluated at the target distance; keep the best E_N.
+    const std::size_t slice = pp.size() / pp.axes[0].values.size();
+    std::vector<std::size_t> best_index(pp.axes.size(), 0);
+    steps::PointResult best;
+    bool have_best = false;
+    for (std::size_t s = 0; s < slice; ++s) {
+      const std::vector<std::size_t> idx = pp.unflatten(s);  // distance index 0, others vary
+      const steps::PointResult r = steps::evaluate(sweep::resolve(sc, plan, p, idx, v.target_m));
+      if (!have_best || (usable(r) && (!usable(best) || r.log_negativity > best.log_negativity))) {
+        best = r;
+        best_index = idx;
+        have_best = true;
+      }
+    }
+    pv.status = best.status;
+    pv.success_probability = best.success_probability;
+    pv.log_negativity = best.log_negativity;
+    pv.fidelity = best.fidelity;
+    pv.false_herald_fraction = best.false_herald_fraction;
+    pv.truncation_error = best.truncation_error;
+    pv.cutoff = best.cutoff;
+    pv.heralding_rate_hz = sweep::trial_rate_hz(sc, plan, p, best_index) * best.success_probability;
+    for (std::size_t a = 1; a < pp.axes.size(); ++a) pv.best.emplace_back(pp.axes[a].name, pp.axes[a].values[best_index[a]]);
+    if (sc.output.heralds_wanted && pv.heralding_rate_hz > 0.0)
+      pv.seconds_for_heralds = *sc.output.heralds_wanted / pv.heralding_rate_hz;
+    pv.pays_off_log_negativity = usable(best) && best.log_negativity > v.bare_log_negativity;
+    pv.pays_off_fidelity = usable(best) && best.fidelity > v.bare_fidelity;
+
+    // Crossings along distance with the best setting held fixed: grid values from the run,
+    // refined between grid points by fresh evaluations.
+    if (grid.size() > 1) {
+      std::vector<double> en_margin, f_margin, f_half;
+      for (std::size_t di = 0; di < grid.size(); ++di) {
+        std::vector<std::size_t> idx = best_index;
+        idx[0] = di;
+        std::size_t flat = 0;
+        for (std::size_t a = 0; a < idx.size(); ++a) flat = flat * pp.axes[a].values.size() + idx[a];
+        const steps::PointResult& r = table.points[flat];
+        const bool ok = table.done[flat] && usable(r);
+        en_margin.push_back(ok ? r.log_negativity - data.link.log_negativity[di] : -1.0);
+        f_margin.push_back(ok ? r.fidelity - data.link.fidelity[di] : -1.0);
+        f_half.push_back(ok ? r.fidelity - 0.5 : -1.0);
+      }
+      auto at = [&](double d) {
+        const steps::PointResult r = steps::evaluate(sweep::resolve(sc, plan, p, best_index, d));
+        return r;
+      };
+      auto en_fn = [&](double d) {
+        const auto r = at(d);
+        return usable(r) ? r.log_negativity - gaussian::log_negativity(bare_state(sc, d)) : -1.0;
+      };
+      auto f_fn = [&](double d) {
+        const auto r = at(d);
+        return usable(r) ? r.fidelity - gaussian::fidelity(bare_state(sc, d)) : -1.0;
+      };
+      auto half_fn = [&](double d) {
+        const auto r = at(d);
+        return usable(r) ? r.fidelity - 0.5 : -1.0;
+      };
+      const double tol = 1e-6 * std::max(1.0, grid.back());
+      pv.breakeven_log_negativity = last_downward_crossing(en_fn, grid, en_margin, tol);
+      pv.breakeven_fidelity = last_downward_crossing(f_fn, grid, f_margin, tol);
+      pv.fidelity_half = last_downward_crossing(half_fn, grid, f_half, tol);
+    }
+
+    std::ostringstream line;
+    line.precision(3);
+    const double target = v.target_m;
+    if (!usable(best)) {
+      line << "no verdict at " << target << " m: " << to_string(best.status);
+      if (best.status == Status::truncation_budget_missed) line << " (needs cutoff " << best.cutoff_needed << ")";
+    } else {
+      const bool is_bare = pp.axes.size() == 1 && std::abs(best.success_probability - 1.0) < 1e-12;
+      if (is_bare) {
+        line << "no heralding: this is the link itself (E_N " << best.log_negativity << ", F " << best.fidelity << ")";
+      } else {
+        line << (pv.pays_off_log_negativity ? "pays off" : "does not pay off") << " at " << target << " m: E_N "
+             << best.log_negativity << " vs " << v.bare_log_negativity << " bare, F " << best.fidelity << " vs "
+             << v.bare_fidelity << " bare";
+        if (pv.pays_off_log_negativity && !pv.pays_off_fidelity) line << " (entanglement up, teleportation fidelity not)";
+        if (!pv.pays_off_log_negativity && pv.pays_off_fidelity) line << " (fidelity up, entanglement not)";
+        line << "; " << pv.heralding_rate_hz << " heralded pairs/s";
+        line.precision(2);
+        line << ", " << 100.0 * pv.false_herald_fraction << "% false heralds";
+      }
+    }
+    pv.summary = line.str();
+    v.protocols.push_back(std::move(pv));
+  }
+  return v;
+}
+
+namespace {
+
+std::string describe_crossing(const Crossing& c) {
+  char buf[64];
+  switch (c.kind) {
+    case Crossing::Kind::crossed: std::snprintf(buf, sizeof buf, "%.4g m", c.distance); break;
+    case Crossing::Kind::never_positive: std::snprintf(buf, sizeof buf, "never"); break;
+    case Crossing::Kind::beyond_grid: std::snprintf(buf, sizeof buf, "> %.4g m", c.distance); break;
+  }
+  return buf;
+}
+
+}  // namespace
+
+std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict& v) {
+  std::ostringstream out;
+  char buf[512];
+  std::snprintf(buf, sizeof buf, "Verdict at the target distance %.4g m (%s)\n", v.target_m, sc.title.c_str());
+  out << buf;
+  std::snprintf(buf, sizeof buf, "  bare link: E_N %.4f ebit, fidelity %.4f; entanglement survives to %s, fidelity > 1/2 to %s\n",
+                v.bare_log_negativity, v.bare_fidelity, describe_crossing(v.survival).c_str(),
+                describe_crossing(v.fidelity_half).c_str());
+  out << buf;
+  std::snprintf(buf, sizeof buf, "  %-22s %11s %11s %8s %8s %8s %13s %13s %11s\n", "protocol", "P_success", "rate_Hz",
+                "false%", "E_N", "F", "break-even E_N", "break-even F", "F > 1/2 to");
+  out << buf;
+  for (const auto& p : v.protocols) {
+    std::snprintf(buf, sizeof buf, "  %-22.22s %11.4g %11.4g %8.2f %8.4f %8.4f %13s %13s %11s\n", p.name.c_str(),
+                  p.success_probability, p.heralding_rate_hz, 100.0 * p.false_herald_fraction, p.log_negativity,
+                  p.fidelity, describe_crossing(p.breakeven_log_negativity).c_str(),
+                  describe_crossing(p.breakeven_fidelity).c_str(), describe_crossing(p.fidelity_half).c_str());
+    out << buf;
+  }
+  for (const auto& p : v.protocols) {
+    out << "  " << p.name << ": " << p.summary;
+    if (!p.best.empty()) {
+      out << "; best setting:";
+      for (const auto& [name, value] : p.best) {
+        std::snprintf(buf, sizeof buf, " %s = %.4g", name.c_str(), value);
+        out << buf;
+      }
+    }
+    if (p.seconds_for_heralds) {
+      std::snprintf(buf, sizeof buf, "; %.4g s for %.4g heralded pairs", *p.seconds_for_heralds, *sc.output.heralds_wanted);
+      out << buf;
+    }
+    if (p.failed_points) out << "; " << p.failed_points << " grid points failed (see status in the file)";
+    out << "\n";
+  }
+  return out.str();
+}
+
+Summary execute(const scenario::Scenario& sc, const Options& options) {
+  namespace fs = std::filesystem;
+  stop_requested.store(false);
+  const auto t0 = Clock::now();
+  Summary summary;
+  summary.file = options.output.empty() ? sc.output.file : options.output;
+  const std::string partial = summary.file + ".partial";
+  std::error_code ec;
+  const bool have_partial = fs::exists(partial, ec);
+  if (!have_partial && fs::exists(summary.file, ec) && !options.force)
+    throw InputError(sc.path, 0, "output.file", "\"" + summary.file + "\"",
+                     "a result file that does not exist yet", "it exists; pass --force to overwrite it");
+  if (fs::path(summary.file).has_parent_path()) fs::create_directories(fs::path(summary.file).parent_path(), ec);
+
+  const sweep::Plan plan = sweep::make_plan(sc);
+  output::RunData data = output::empty_run(plan);
+  if (have_partial) output::read_checkpoint(partial, sc, plan, data);
+  data.link = link_table(sc);
+
+  summary.threads = sweep::thread_count(options.threads > 0 ? options.threads : sc.numerics.threads);
+  output::Provenance prov{options.version, summary.threads, 1, utc_now()};
+
+  // Jobs: (protocol, flat index) pairs not done yet, in a fixed order.
+  std::vector<std::pair<std::size_t, std::size_t>> jobs;
+  for (std::size_t p = 0; p < plan.protocols.size(); ++p)
+    for (std::size_t i = 0; i < plan.protocols[p].size(); ++i) {
+      ++summary.total_points;
+      if (data.protocols[p].done[i])
+        ++summary.resumed_points;
+      else
+        jobs.emplace_back(p, i);
+    }
+  std::vector<std::size_t> todo(jobs.size());
+  for (std::size_t j = 0; j < todo.size(); ++j) todo[j] = j;
+
+  // Trial rates depend only on the counter settings, not the distance: computed per job anyway
+  // (cheap) so that swept counter parameters are honoured.
+  auto evaluate_job = [&](std::size_t j) {
+    const auto [p, flat] = jobs[j];
+    const auto idx = plan.protocols[p].unflatten(flat);
+    const steps::PointSpec spec = sweep::resolve(sc, plan, p, idx);
+    steps::PointResult r = steps::evaluate(spec);
+    const double rate = steps::trial_rate_hz(sc.source.bandwidth_hz, steps::counters_used(spec.steps, spec.counters));
+    data.protocols[p].points[flat] = r;
+    data.protocols[p].heralding_rate_hz[flat] = r.status == Status::ok ? rate * r.success_probability : 0.0;
+  };
+
+  auto last_checkpoint = Clock::now();
+  std::size_t computed = 0;
+  auto mark_done = [&](std::size_t done) {
+    for (std::size_t j = computed; j < done; ++j) data.protocols[jobs[j].first].done[jobs[j].second] = 1;
+    computed = done;
+  };
+  auto after_chunk = [&](std::size_t done) {
+    mark_done(done);
+    const double since = std::chrono::duration<double>(Clock::now() - last_checkpoint).count();
+    if (since >= options.checkpoint_seconds) {
+      output::write_file(partial, sc, plan, data, prov, false);
+      last_checkpoint = Clock::now();
+    }
+    if (options.progress) {
+      const double el = std::chrono::duration<double>(Clock::now() - t0).count();
+      const double rate = done / std::max(el, 1e-9);
+      std::fprintf(stderr, "\r  %zu/%zu points, %.3g points/s, %.0f s left   ", summary.resumed_points + done,
+                   summary.total_points, rate, (todo.size() - done) / std::max(rate, 1e-9));
+      std::fflush(stderr);
+    }
+  };
+  auto stop = [&]() {
+    if (stop_requested.load()) return true;
+    return options.stop_after_points > 0 && computed >= options.stop_after_points;
+  };
+  sweep::dispatch(todo, summary.threads, evaluate_job, stop, after_chunk);
+  if (options.progress) std::fprintf(stderr, "\n");
+  summary.computed_points = computed;
+
+  if (computed < todo.size()) {
+    summary.interrupted = true;
+    output::write_file(partial, sc, plan, data, prov, false);
+    summary.file = partial;
+  } else {
+    data.verdict = compute_verdict(sc, plan, data);
+    output::write_file(summary.file, sc, plan, data, prov, true);
+    fs::remove(partial, ec);
+  }
+  for (const auto& t : data.protocols)
+    for (std::size_t i = 0; i < t.points.size(); ++i)
+      if (t.done[i] && t.points[i].status != Status::ok) ++summary.failed_points;
+  summary.seconds = std::chrono::duration<double>(Clock::now() - t0).count();
+  summary.data = std::move(data);
+  return summary;
+}
+
+}  // namespace heraldry::run
