@@ -10,7 +10,7 @@
 #include <vector>
 
 #include "heraldry/scenario.hpp"
-#include "scenario/reader.hpp"
+#include "scenario/suggest.hpp"
 
 namespace fs = std::filesystem;
 using namespace heraldry;

@@ -15,17 +15,9 @@
 #include <toml++/toml.h>
 
 #include "heraldry/scenario.hpp"
+#include "scenario/suggest.hpp"
 
 namespace heraldry::scenario::detail {
-
-/// Levenshtein distance (insertions, deletions, substitutions of bytes, each of cost 1).
-std::size_t edit_distance(std::string_view a, std::string_view b);
-
-/// The known name closest to `unknown` (ignoring ASCII case), when its edit distance is at most
-/// max(2, unknown.size() / 3) and less than the longer length (no suggestion that replaces
-/// every character); ties go to the first in `known`.
-std::optional<std::string> closest(std::string_view unknown,
-                                   const std::vector<std::string_view>& known);
 
 /// Throws InputError(file, line, key, value, expected, hint); the one place that builds it.
 [[noreturn]] void raise(const std::string& file, int line, const std::string& key, const std::string& value,
