@@ -96,10 +96,20 @@ struct Scenario {
   const Counter* find_counter(std::string_view name) const;
 };
 
-/// Parses and validates a scenario. Throws InputError naming file, line, key, value and what was
-/// expected (for an unknown key, the closest known one).
+/// Parses and validates a scenario (the schema of protocols/demo.toml). Throws InputError naming
+/// file, line, key, value and what was expected (for an unknown key, the closest known one):
+/// - key: the dotted path, with 0-based indices for arrays ("protocol[1].steps[2].transmissivity",
+///   "link.distance_m.points", "link.distance_m[3]"); "<syntax>" for a TOML syntax error;
+/// - line: of the offending value, or of the table that misses a required key (none for a
+///   missing top-level table);
+/// - value: as written in the file (strings with their quotes); none for a missing key.
+/// Units are converted to SI here: GHz, MHz -> Hz; ns, us -> s; degrees Celsius -> K. A loss step's
+/// loss_db is stored as "transmissivity" = 10^(-dB/10). A counter's dark_rate_hz R with gate t
+/// becomes dark_per_gate = 1 - exp(-R t) (threshold) or R t (resolving: Poisson mean).
+/// Tables that the chosen medium does not use ([link.line] with "air", [link.air] and
+/// [link.antenna] with "line") are refused rather than ignored.
 Scenario parse(std::string_view text, const std::string& file_name);
-/// Reads a file and parses it; an unreadable file is an InputError too.
+/// Reads a file and parses it; an unreadable file is an InputError too (key "<file>", line 0).
 Scenario load(const std::string& path);
 /// The built-in demo scenario (protocols/demo.toml, compiled in).
 std::string_view demo_text();
