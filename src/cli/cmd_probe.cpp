@@ -1,16 +1,132 @@
-// `heraldry probe SCENARIO [--at METRES] [--json]`: every protocol's figures at one distance.
+// `heraldry probe SCENARIO [--at METRES] [--json] [--set PROTOCOL:AXIS=VALUE]`: every protocol's
+// figures at one distance. A swept parameter takes its first value unless --set pins it.
+#include <cmath>
 #include <cstdio>
+#include <string>
 
 #include "cli/commands.hpp"
+#include "heraldry/gaussian.hpp"
 #include "heraldry/scenario.hpp"
+#include "heraldry/sweep.hpp"
 
 namespace heraldry::cli {
 
+namespace {
+
+std::string json_string(const std::string& s) {
+  std::string out = "\"";
+  for (char ch : s) {
+    if (ch == '"' || ch == '\\') {
+      out += '\\';
+      out += ch;
+    } else if (static_cast<unsigned char>(ch) < 0x20) {
+      char buf[8];
+      std::snprintf(buf, sizeof buf, "\\u%04x", ch);
+      out += buf;
+    } else {
+      out += ch;
+    }
+  }
+  return out + "\"";
+}
+
+std::string json_number(double v) {
+  if (!std::isfinite(v)) return "null";
+  char buf[40];
+  std::snprintf(buf, sizeof buf, "%.17g", v);
+  return buf;
+}
+
+// Applies one --set "PROTOCOL:AXIS=VALUE" to the plan (the axis keeps only that value).
+void apply_set(sweep::Plan& plan, const std::string& text) {
+  const auto colon = text.find(':');
+  const auto eq = text.rfind('=');
+  if (colon == std::string::npos || eq == std::string::npos || eq < colon)
+    throw InputError("--set", 0, "--set", "\"" + text + "\"", "PROTOCOL:AXIS=VALUE, e.g. \"subtract both:step3.transmissivity=0.9\"");
+  const std::string proto = text.substr(0, colon), axis = text.substr(colon + 1, eq - colon - 1);
+  double value = 0.0;
+  try {
+    std::size_t used = 0;
+    value = std::stod(text.substr(eq + 1), &used);
+    if (used != text.size() - eq - 1) throw std::invalid_argument("trailing");
+  } catch (const std::exception&) {
+    throw InputError("--set", 0, "--set", "\"" + text + "\"", "a number after '='");
+  }
+  for (auto& pp : plan.protocols) {
+    if (pp.name != proto) continue;
+    for (std::size_t a = 1; a < pp.axes.size(); ++a)
+      if (pp.axes[a].name == axis) {
+        pp.axes[a].values = {value};
+        return;
+      }
+    std::string known;
+    for (std::size_t a = 1; a < pp.axes.size(); ++a) known += (known.empty() ? "" : ", ") + pp.axes[a].name;
+    throw InputError("--set", 0, "--set", "\"" + text + "\"",
+                     "a swept parameter of protocol '" + proto + "'" + (known.empty() ? " (it has none)" : ": " + known));
+  }
+  throw InputError("--set", 0, "--set", "\"" + text + "\"", "the name of a protocol of the scenario");
+}
+
+}  // namespace
+
 int cmd_probe(const ProbeOptions& options) {
   const scenario::Scenario sc = scenario::load(options.scenario);
-  (void)sc;
-  std::fprintf(stderr, "heraldry probe: not available in this build yet\n");
-  return 1;
+  const double d = options.at_m ? *options.at_m : sc.link.target_m;
+  if (!(d >= 0.0) || !std::isfinite(d))
+    throw InputError("--at", 0, "--at", json_number(d), "a distance in metres >= 0");
+  sweep::Plan plan = sweep::make_plan(sc);
+  for (const auto& s : options.set) apply_set(plan, s);
+
+  const link::LinkBudget budget = link::link_budget(sc.link.model, d);
+  auto bare = gaussian::tmst(squeezing_parameter_from_db(sc.source.squeezing_db), sc.source.thermal_photons);
+  bare = gaussian::apply(gaussian::apply(bare, Mode::A, budget.a.channel), Mode::B, budget.b.channel);
+
+  struct Row {
+    std::string name;
+    steps::PointResult r;
+    double rate;
+  };
+  std::vector<Row> rows;
+  bool failed = false;
+  for (std::size_t p = 0; p < plan.protocols.size(); ++p) {
+    const std::vector<std::size_t> idx(plan.protocols[p].axes.size(), 0);
+    const steps::PointSpec spec = sweep::resolve(sc, plan, p, idx, d);
+    const steps::PointResult r = steps::evaluate(spec);
+    const double trial = steps::trial_rate_hz(sc.source.bandwidth_hz, steps::counters_used(spec.steps, spec.counters));
+    rows.push_back({plan.protocols[p].name, r, r.status == Status::ok ? trial * r.success_probability : 0.0});
+    failed = failed || r.status != Status::ok;
+  }
+
+  if (options.json) {
+    std::string out = "{\"distance_m\": " + json_number(d) + ", \"input\": {\"negativity\": " +
+                      json_number(gaussian::negativity(bare)) + ", \"log_negativity\": " +
+                      json_number(gaussian::log_negativity(bare)) + ", \"fidelity\": " +
+                      json_number(gaussian::fidelity(bare)) + "}, \"protocols\": [";
+    for (std::size_t i = 0; i < rows.size(); ++i) {
+      const auto& [name, r, rate] = rows[i];
+      const bool ok = r.status == Status::ok;
+      auto num = [&](double v) { return ok ? json_number(v) : std::string("null"); };
+      out += std::string(i ? ", " : "") + "{\"name\": " + json_string(name) + ", \"status\": " +
+             json_string(to_string(r.status)) + ", \"success_probability\": " + num(r.success_probability) +
+             ", \"negativity\": " + num(r.negativity) + ", \"log_negativity\": " + num(r.log_negativity) +
+             ", \"fidelity\": " + num(r.fidelity) + ", \"heralding_rate_hz\": " + num(rate) +
+             ", \"false_herald_fraction\": " + num(r.false_herald_fraction) + ", \"cutoff\": " +
+             std::to_string(r.cutoff) + ", \"truncation_error\": " + json_number(r.truncation_error) + "}";
+    }
+    out += "]}\n";
+    std::fputs(out.c_str(), stdout);
+  } else {
+    std::printf("# %s at %.6g m\n", sc.title.c_str(), d);
+    std::printf("# bare link (Gaussian): E_N %.6f ebit, negativity %.6f, fidelity %.6f\n",
+                gaussian::log_negativity(bare), gaussian::negativity(bare), gaussian::fidelity(bare));
+    std::printf("%-24s %12s %10s %10s %10s %12s %8s %7s %10s  %s\n", "protocol", "P_success", "E_N", "negativity",
+                "fidelity", "rate_Hz", "false%", "cutoff", "trunc_err", "status");
+    for (const auto& [name, r, rate] : rows)
+      std::printf("%-24.24s %12.6g %10.6f %10.6f %10.6f %12.6g %8.3f %7d %10.2e  %s\n", name.c_str(),
+                  r.success_probability, r.log_negativity, r.negativity, r.fidelity, rate,
+                  100.0 * r.false_herald_fraction, r.cutoff, r.truncation_error, to_string(r.status));
+  }
+  return failed ? 3 : 0;
 }
 
 }  // namespace heraldry::cli

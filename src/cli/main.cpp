@@ -37,6 +37,7 @@ int main(int argc, char** argv) {
   probe->add_option("scenario", probe_opts.scenario, "scenario file (TOML)")->required();
   probe->add_option("--at", probe_opts.at_m, "distance in metres (default: the scenario's target_m)");
   probe->add_flag("--json", probe_opts.json, "print one JSON object");
+  probe->add_option("--set", probe_opts.set, "pin a swept parameter: PROTOCOL:AXIS=VALUE (repeatable)");
 
   try {
     app.parse(argc, argv);

@@ -1,0 +1,258 @@
+// The main job end to end: HDF5 layout and values, resume after an interruption, thread-count
+// independence, and the verdict's crossing refinement.
+#include <doctest/doctest.h>
+
+#include <H5Cpp.h>
+#include <unistd.h>
+
+#include <boost/math/tools/roots.hpp>
+#include <cmath>
+#include <filesystem>
+#include <string>
+#include <vector>
+
+#include "heraldry/gaussian.hpp"
+#include "heraldry/run.hpp"
+#include "heraldry/scenario.hpp"
+
+namespace fs = std::filesystem;
+using namespace heraldry;
+
+namespace {
+
+// A unique scratch folder per test (ctest may run tests in parallel).
+fs::path scratch(const std::string& name) {
+  const fs::path p = fs::temp_directory_path() / ("heraldry_test_" + name + "_" + std::to_string(::getpid()));
+  fs::remove_all(p);
+  fs::create_directories(p);
+  return p;
+}
+
+// A small grid that runs in well under a second: 6 distances, a bare link, a two-sided
+// subtraction with a swept tap (3 values) and a threshold counter with dark counts.
+const char* small_scenario = R"(
+title = "test bench: a cold line between two refrigerators"
+[source]
+frequency_ghz = 5.0
+squeezing_db = 5.0
+thermal_photons = 0.01
+bandwidth_mhz = 1.0
+[link]
+medium = "line"
+geometry = "one-way"
+distance_m = { from = 0, to = 100, points = 6 }
+target_m = 30
+[link.line]
+loss_db_per_m = 0.01
+temperature_k = 0.5
+[counters.det]
+kind = "threshold"
+efficiency = 0.6
+dark_per_gate = 1e-3
+gate_ns = 500
+reset_us = 2
+[[protocol]]
+name = "bare"
+steps = ["link"]
+[[protocol]]
+name = "subtract both"
+steps = ["link", { tap = "a", transmissivity = 0.9, counter = "det" },
+                 { tap = "b", transmissivity = [0.85, 0.9, 0.95], counter = "det" }]
+[numerics]
+cutoff = 14
+[output]
+file = "unused.h5"
+)";
+
+std::vector<double> read_doubles(const H5::H5File& f, const std::string& path) {
+  H5::DataSet ds = f.openDataSet(path);
+  std::vector<double> v(static_cast<std::size_t>(ds.getSpace().getSimpleExtentNpoints()));
+  ds.read(v.data(), H5::PredType::NATIVE_DOUBLE);
+  return v;
+}
+
+std::string read_attr(const H5::H5Object& o, const char* name) {
+  std::string s;
+  H5::StrType t(H5::PredType::C_S1, H5T_VARIABLE);
+  o.openAttribute(name).read(t, s);
+  return s;
+}
+
+const char* protocol_datasets[] = {"success_probability", "negativity", "log_negativity", "fidelity",
+                                   "heralding_rate_hz", "false_herald_fraction", "truncation_error"};
+
+}  // namespace
+
+TEST_CASE("a run writes every dataset of the layout with units, and its values equal a fresh evaluation") {
+  const fs::path dir = scratch("layout");
+  const scenario::Scenario sc = scenario::parse(small_scenario, "small.toml");
+  run::Options opt;
+  opt.output = (dir / "r.h5").string();
+  opt.threads = 1;
+  const run::Summary s = run::execute(sc, opt);
+  REQUIRE_FALSE(s.interrupted);
+  CHECK(s.total_points == 6 + 18);
+  CHECK(s.computed_points == 24);
+  REQUIRE(fs::exists(opt.output));
+  CHECK_FALSE(fs::exists(opt.output + ".partial"));
+
+  H5::H5File f(opt.output, H5F_ACC_RDONLY);
+  CHECK(read_attr(f.openGroup("/"), "scenario_text") == sc.text);
+  for (const char* path : {"/axes/distance_m", "/link/transmissivity_a", "/link/transmissivity_b", "/link/bath_photons_a",
+                           "/link/bath_photons_b", "/gaussian/negativity", "/gaussian/log_negativity",
+                           "/gaussian/fidelity", "/gaussian/plob_ebits", "/gaussian/rci_ebits"}) {
+    CAPTURE(path);
+    H5::DataSet ds = f.openDataSet(path);
+    CHECK_FALSE(read_attr(ds, "units").empty());
+    CHECK_FALSE(read_attr(ds, "description").empty());
+  }
+  for (const char* name : protocol_datasets) {
+    H5::DataSet ds = f.openDataSet(std::string("/protocols/subtract both/") + name);
+    CHECK_FALSE(read_attr(ds, "units").empty());
+    hsize_t dims[2];
+    REQUIRE(ds.getSpace().getSimpleExtentNdims() == 2);
+    ds.getSpace().getSimpleExtentDims(dims);
+    CHECK(dims[0] == 6);
+    CHECK(dims[1] == 3);
+  }
+  CHECK(read_doubles(f, "/protocols/subtract both/axes/step3.transmissivity") == std::vector<double>{0.85, 0.9, 0.95});
+
+  // The values are those of the physics kernel at the same point (what `probe` prints).
+  const sweep::Plan plan = sweep::make_plan(sc);
+  const auto en = read_doubles(f, "/protocols/subtract both/log_negativity");
+  const auto P = read_doubles(f, "/protocols/subtract both/success_probability");
+  for (std::size_t flat : {0u, 7u, 17u}) {
+    const auto idx = plan.protocols[1].unflatten(flat);
+    const steps::PointResult r = steps::evaluate(sweep::resolve(sc, plan, 1, idx));
+    CHECK(en[flat] == r.log_negativity);
+    CHECK(P[flat] == r.success_probability);
+  }
+  // The bare protocol in Fock space equals the Gaussian layer (cutoff 14 at 5 dB: truncation ~1e-7).
+  const auto bare_en = read_doubles(f, "/protocols/bare/log_negativity");
+  const auto gauss_en = read_doubles(f, "/gaussian/log_negativity");
+  for (std::size_t i = 0; i < bare_en.size(); ++i) CHECK(bare_en[i] == doctest::Approx(gauss_en[i]).epsilon(1e-5));
+  // The verdict group is there with its summary lines.
+  H5::Group v = f.openGroup("/verdict/subtract both");
+  CHECK_FALSE(read_attr(v, "summary").empty());
+  fs::remove_all(dir);
+}
+
+TEST_CASE("a run interrupted midway resumes without recomputing and ends identical to an uninterrupted run") {
+  const fs::path dir = scratch("resume");
+  const scenario::Scenario sc = scenario::parse(small_scenario, "small.toml");
+  run::Options full;
+  full.output = (dir / "full.h5").string();
+  full.threads = 2;
+  run::execute(sc, full);
+
+  run::Options part = full;
+  part.output = (dir / "part.h5").string();
+  part.stop_after_points = 5;
+  const run::Summary first = run::execute(sc, part);
+  REQUIRE(first.interrupted);
+  CHECK(fs::exists(part.output + ".partial"));
+  CHECK_FALSE(fs::exists(part.output));
+  const std::size_t done_first = first.computed_points;
+  CHECK(done_first >= 5);
+  CHECK(done_first < first.total_points);
+
+  part.stop_after_points = 0;
+  const run::Summary second = run::execute(sc, part);
+  REQUIRE_FALSE(second.interrupted);
+  CHECK(second.resumed_points == done_first);
+  CHECK(second.computed_points == second.total_points - done_first);
+  CHECK_FALSE(fs::exists(part.output + ".partial"));
+
+  H5::H5File a(full.output, H5F_ACC_RDONLY), b(part.output, H5F_ACC_RDONLY);
+  for (const char* proto : {"bare", "subtract both"})
+    for (const char* name : protocol_datasets) {
+      const std::string path = std::string("/protocols/") + proto + "/" + name;
+      CAPTURE(path);
+      CHECK(read_doubles(a, path) == read_doubles(b, path));
+    }
+  fs::remove_all(dir);
+}
+
+TEST_CASE("a checkpoint of another scenario is refused with a clear message") {
+  const fs::path dir = scratch("changed");
+  const scenario::Scenario sc = scenario::parse(small_scenario, "small.toml");
+  run::Options part;
+  part.output = (dir / "r.h5").string();
+  part.threads = 1;
+  part.stop_after_points = 3;
+  REQUIRE(run::execute(sc, part).interrupted);
+  std::string changed = small_scenario;
+  changed.replace(changed.find("squeezing_db = 5.0"), 18, "squeezing_db = 5.5");
+  const scenario::Scenario sc2 = scenario::parse(changed, "small.toml");
+  part.stop_after_points = 0;
+  CHECK_THROWS_WITH_AS(run::execute(sc2, part), doctest::Contains("the scenario changed since this checkpoint"),
+                       InputError);
+  fs::remove_all(dir);
+}
+
+TEST_CASE("an existing result is not overwritten without force") {
+  const fs::path dir = scratch("force");
+  const scenario::Scenario sc = scenario::parse(small_scenario, "small.toml");
+  run::Options opt;
+  opt.output = (dir / "r.h5").string();
+  opt.threads = 1;
+  run::execute(sc, opt);
+  CHECK_THROWS_WITH_AS(run::execute(sc, opt), doctest::Contains("pass --force"), InputError);
+  opt.force = true;
+  CHECK_FALSE(run::execute(sc, opt).interrupted);
+  fs::remove_all(dir);
+}
+
+TEST_CASE("one and two threads give identical datasets") {
+  const fs::path dir = scratch("threads");
+  const scenario::Scenario sc = scenario::parse(small_scenario, "small.toml");
+  run::Options one, two;
+  one.output = (dir / "one.h5").string();
+  one.threads = 1;
+  two.output = (dir / "two.h5").string();
+  two.threads = 2;
+  run::execute(sc, one);
+  run::execute(sc, two);
+  H5::H5File a(one.output, H5F_ACC_RDONLY), b(two.output, H5F_ACC_RDONLY);
+  for (const char* name : protocol_datasets) {
+    const std::string path = std::string("/protocols/subtract both/") + name;
+    CHECK(read_doubles(a, path) == read_doubles(b, path));
+  }
+  fs::remove_all(dir);
+}
+
+TEST_CASE("the verdict refines the fidelity-1/2 distance between grid points to the closed-form root") {
+  // Closed form (PHYSICS.md §7.4): F = 2 / (2 + a + b - 2c) for the standard form; F = 1/2 where
+  // a + b - 2c = 2. The root is found here with Boost's bracketing solver on the Gaussian layer,
+  // and the verdict must find it from the Fock evaluations of the "bare" protocol on a 20 m grid.
+  const scenario::Scenario sc = scenario::parse(small_scenario, "small.toml");
+  const double r = squeezing_parameter_from_db(5.0);
+  const double n_line = link::planck_occupation(5e9, 0.5);
+  auto margin = [&](double d) {
+    const double tau = std::pow(10.0, -0.01 * d / 10.0);
+    return gaussian::fidelity(gaussian::apply(gaussian::tmst(r, 0.01), Mode::B, {tau, n_line})) - 0.5;
+  };
+  boost::uintmax_t iters = 100;
+  const auto root = boost::math::tools::toms748_solve(margin, 0.0, 1000.0, boost::math::tools::eps_tolerance<double>(50), iters);
+  const double expected = 0.5 * (root.first + root.second);
+
+  std::string text = small_scenario;
+  text.replace(text.find("distance_m = { from = 0, to = 100, points = 6 }"), 47, "distance_m = { from = 0, to = 400, points = 21 }");
+  text.replace(text.find("cutoff = 14"), 11, "cutoff = 30");
+  const scenario::Scenario wide = scenario::parse(text, "wide.toml");
+  const fs::path dir = scratch("verdict");
+  run::Options opt;
+  opt.output = (dir / "v.h5").string();
+  opt.threads = 2;
+  const run::Summary s = run::execute(wide, opt);
+  REQUIRE(s.data.verdict);
+  const auto& bare = s.data.verdict->protocols.front();
+  REQUIRE(bare.fidelity_half.kind == Crossing::Kind::crossed);
+  CHECK(expected > 0.0);
+  CHECK(expected < 400.0);
+  CHECK(bare.fidelity_half.distance == doctest::Approx(expected).epsilon(1e-5));
+  // The bare link's own (Gaussian) crossing agrees too.
+  REQUIRE(s.data.verdict->fidelity_half.kind == Crossing::Kind::crossed);
+  CHECK(s.data.verdict->fidelity_half.distance == doctest::Approx(expected).epsilon(1e-8));
+  fs::remove_all(dir);
+}
