@@ -1,0 +1,33 @@
+// Internals shared by the step files: small combinatorics, the per-shift merge of Kraus
+// operators, and the step registry types. Not part of the public API.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "heraldry/steps.hpp"
+
+namespace heraldry::steps::detail {
+
+/// C(n, k) in double by the multiplicative formula (exact up to 2^53, then relative error
+/// ~ k epsilon); 0 outside 0 <= k <= n.
+double binomial(int n, int k);
+
+/// log C(n, k) for large arguments (lgamma).
+double log_binomial(int n, int k);
+
+/// x^k with 0^0 = 1 (integer exponent).
+double power(double x, int k);
+
+/// Throws InputError(key, value, expected) with an empty file name: the caller (scenario layer)
+/// has already located the step; here we name the step parameter.
+[[noreturn]] void fail(const std::string& key, double value, const std::string& expected);
+
+/// Merges Kraus operators that share a shift: the map rho -> sum_i K_i rho K_i^T restricted to
+/// one shift s depends only on the Gram matrix M[n][n'] = sum_i c_i[n] c_i[n'] (the output
+/// element (n+s, n'+s) is M[n][n'] rho[n][n']), so any factorisation M = sum_j u_j u_j^T gives
+/// the same map. A pivoted Cholesky factorisation keeps at most rank(M) operators. Exact up to
+/// round-off; zero operators disappear.
+fock::Operation merge_by_shift(const std::vector<fock::ShiftOperator>& kraus);
+
+}  // namespace heraldry::steps::detail
