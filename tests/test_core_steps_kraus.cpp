@@ -177,7 +177,7 @@ TEST_CASE("scissors with real counters and a lossy photon source match a brute-f
     const CounterModel counter{r.at("kind") == "threshold" ? CounterKind::threshold : CounterKind::resolving,
                                steps_test::num(r, "efficiency"), steps_test::num(r, "dark"), 1e-6, 0.0};
     std::vector<double> c;
-    for (int n = 0; n <= 4; ++n) c.push_back(steps_test::num(r, "c" + std::to_string(n)));
+    for (const char* key : {"c0", "c1", "c2", "c3", "c4"}) c.push_back(steps_test::num(r, key));
     const auto op = scissors_operation(steps_test::num(r, "gain"), steps_test::num(r, "source_efficiency"), counter,
                                        4, Weighting::full, r.at("corrected") == "1");
     const auto out = steps_test::apply(op, steps_test::pure(c));

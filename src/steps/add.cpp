@@ -64,3 +64,16 @@ fock::Operation add_operation(double squeezing, const CounterModel& counter, int
 }
 
 }  // namespace heraldry::steps
+
+namespace heraldry::steps::detail {
+
+template <class State>
+void apply_add(State& state, const StepSpec& step, StepContext& context) {
+  fock::apply(state, step.mode,
+              add_operation(step.squeezing, counter_of(step, context), step.counts, state.cutoff(),
+                            context.weighting),
+              context.work);
+}
+HERALDRY_STEPS_INSTANTIATE(apply_add)
+
+}  // namespace heraldry::steps::detail

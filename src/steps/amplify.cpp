@@ -1,5 +1,6 @@
 // Step `amplify`: noiseless linear amplification g^n (Ralph & Lund, AIP Conf. Proc. 1110, 155
 // (2009)), in the physical form g^{n-N} Pi_N (PHYSICS.md §5.1).
+#include <algorithm>
 #include <cmath>
 
 #include "steps/detail.hpp"
@@ -22,3 +23,23 @@ fock::Operation amplify_operation(double gain, int max_photons, int cutoff) {
 }
 
 }  // namespace heraldry::steps
+
+namespace heraldry::steps::detail {
+
+// Also books the weight of the input above N that the physical realisation cuts off, as a
+// fraction of the step's input (0 for the ideal form, whose N is the cutoff itself).
+template <class State>
+void apply_amplify(State& state, const StepSpec& step, StepContext& context) {
+  const int cutoff = state.cutoff();
+  if (step.gain > 1.0 && step.max_photons > 0 && step.max_photons < cutoff) {
+    const Eigen::VectorXd p = fock::photon_distribution(state, step.mode);
+    const double total = p.sum();
+    const double above = p.tail(cutoff - step.max_photons).sum();
+    if (total > 0.0)
+      context.amplifier_cut_fraction = std::max(context.amplifier_cut_fraction, above / total);
+  }
+  fock::apply(state, step.mode, amplify_operation(step.gain, step.max_photons, cutoff), context.work);
+}
+HERALDRY_STEPS_INSTANTIATE(apply_amplify)
+
+}  // namespace heraldry::steps::detail

@@ -30,8 +30,13 @@ double log_binomial(int n, int k) {
 
 double power(double x, int k) { return k == 0 ? 1.0 : std::pow(x, k); }
 
+void fail(const std::string& key, const std::string& value, const std::string& expected) {
+  throw InputError("", 0, key, value, expected);
+}
+
 void fail(const std::string& key, double value, const std::string& expected) {
-  throw InputError("", 0, key, std::to_string(value), expected);
+  const bool integral = std::abs(value) < 1e15 && value == std::floor(value);
+  fail(key, integral ? std::to_string(static_cast<long long>(value)) : std::to_string(value), expected);
 }
 
 }  // namespace detail

@@ -72,3 +72,16 @@ fock::Operation scissors_operation(double gain, double source_efficiency,
 }
 
 }  // namespace heraldry::steps
+
+namespace heraldry::steps::detail {
+
+template <class State>
+void apply_scissors(State& state, const StepSpec& step, StepContext& context) {
+  fock::apply(state, step.mode,
+              scissors_operation(step.gain, step.photon_source_efficiency, counter_of(step, context),
+                                 state.cutoff(), context.weighting),
+              context.work);
+}
+HERALDRY_STEPS_INSTANTIATE(apply_scissors)
+
+}  // namespace heraldry::steps::detail

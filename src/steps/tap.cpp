@@ -29,3 +29,16 @@ fock::Operation tap_operation(double transmissivity, const CounterModel& counter
 }
 
 }  // namespace heraldry::steps
+
+namespace heraldry::steps::detail {
+
+template <class State>
+void apply_tap(State& state, const StepSpec& step, StepContext& context) {
+  fock::apply(state, step.mode,
+              tap_operation(step.transmissivity, counter_of(step, context), step.counts, state.cutoff(),
+                            context.weighting),
+              context.work);
+}
+HERALDRY_STEPS_INSTANTIATE(apply_tap)
+
+}  // namespace heraldry::steps::detail
