@@ -1,0 +1,26 @@
+// Internals shared by the Fock engine and the measures. Not part of the public API.
+#pragma once
+
+#include <cmath>
+#include <vector>
+
+namespace heraldry::fock::detail {
+
+/// ln k! for k = 0..n (std::lgamma, accurate to a few ulp of the result).
+inline std::vector<double> log_factorials(int n) {
+  std::vector<double> lf(static_cast<std::size_t>(n + 1));
+  for (int k = 0; k <= n; ++k) lf[static_cast<std::size_t>(k)] = std::lgamma(k + 1.0);
+  return lf;
+}
+
+/// e * ln(x) with the convention 0^0 = 1 (e = 0 gives 0 even for x = 0) and ln 0 = -inf.
+inline double power_log(int e, double x) {
+  if (e == 0) return 0.0;
+  return x > 0.0 ? e * std::log(x) : -INFINITY;
+}
+
+/// Index of block d in a sector state of cutoff n.
+inline int lowest(int d) { return d > 0 ? d : 0; }
+inline int highest(int d, int n) { return d < 0 ? n + d : n; }
+
+}  // namespace heraldry::fock::detail

@@ -1,0 +1,79 @@
+// Step `add`: heralded photon addition. A two-mode squeezer of parameter s couples the mode to
+// a vacuum idler; a counter on the idler heralds (PHYSICS.md §5.3).
+#include <cmath>
+#include <limits>
+
+#include "steps/detail.hpp"
+
+namespace heraldry::steps {
+
+namespace {
+
+// log of B_k[n]^2 = C(n+k,k) G^{-(n+1)} (1-1/G)^k with G = cosh^2 s, 1 - 1/G = tanh^2 s.
+double log_amplifier_weight(int n, int k, double log_cosh, double log_tanh) {
+  return detail::log_binomial(n + k, k) - 2.0 * (n + 1) * log_cosh + 2.0 * k * log_tanh;
+}
+
+}  // namespace
+
+fock::Operation add_operation(double squeezing, const CounterModel& counter, int reading,
+                              int cutoff, Weighting weighting) {
+  const double s = squeezing;
+  if (!(s >= 0.0) || !std::isfinite(s)) detail::fail("add.squeezing", s, "a squeezing parameter >= 0");
+  validate(counter, "add.counter");
+  fock::Operation op;
+  if (s == 0.0) {
+    // No squeezing: the idler stays empty and the herald weight is that of zero photons.
+    const double w0 = reading_probability(counter, reading, 0, weighting);
+    if (w0 > 0.0) op.kraus.push_back({0, std::vector<double>(cutoff + 1, std::sqrt(w0))});
+    return op;
+  }
+  const double log_cosh = std::log(std::cosh(s));
+  const double log_tanh = std::log(std::tanh(s));
+  // k idler photons, k = 0..N: B_k |n> = sqrt(C(n+k,k)) G^{-(n+1)/2} (1-1/G)^{k/2} |n+k>.
+  for (int k = 0; k <= cutoff; ++k) {
+    const double w = reading_probability(counter, reading, k, weighting);
+    if (w == 0.0) continue;
+    fock::ShiftOperator kraus{k, std::vector<double>(cutoff + 1, 0.0)};
+    for (int n = 0; n <= cutoff; ++n)
+      kraus.coeff[n] = std::sqrt(w * std::exp(log_amplifier_weight(n, k, log_cosh, log_tanh)));
+    op.kraus.push_back(std::move(kraus));
+  }
+  // k >= N+1 idler photons push every input above the cutoff: one operator carries their
+  // summed weight sum_{k>N} w(k) B_k[n]^2 into the engine's ledger. The unweighted series is
+  // sum_k C(n+k,k) x^k (1-x)^{n+1} = 1 (x = tanh^2 s); its terms decrease once the ratio
+  // x (n+k+1)/(k+1) < 1, after which the rest is bounded by a geometric series.
+  const double x = std::exp(2.0 * log_tanh);
+  fock::ShiftOperator tail{cutoff + 1, std::vector<double>(cutoff + 1, 0.0)};
+  bool any = false;
+  for (int n = 0; n <= cutoff; ++n) {
+    double weighted = 0.0, plain = 0.0;
+    for (int k = cutoff + 1; k < 10'000'000; ++k) {
+      const double t = std::exp(log_amplifier_weight(n, k, log_cosh, log_tanh));
+      plain += t;
+      weighted += reading_probability(counter, reading, k, weighting) * t;
+      const double ratio = x * (n + k + 1.0) / (k + 1.0);
+      if (ratio < 1.0 && t * ratio / (1.0 - ratio) <= 1e-17 * plain) break;
+      if (plain == 0.0 && ratio < 1.0) break;  // underflowed tail
+    }
+    tail.coeff[n] = std::sqrt(weighted);
+    any = any || weighted > 0.0;
+  }
+  if (any) op.kraus.push_back(std::move(tail));
+  return op;
+}
+
+}  // namespace heraldry::steps
+
+namespace heraldry::steps::detail {
+
+template <class State>
+void apply_add(State& state, const StepSpec& step, StepContext& context) {
+  fock::apply(state, step.mode,
+              add_operation(step.squeezing, counter_of(step, context), step.counts, state.cutoff(),
+                            context.weighting),
+              context.work);
+}
+HERALDRY_STEPS_INSTANTIATE(apply_add)
+
+}  // namespace heraldry::steps::detail

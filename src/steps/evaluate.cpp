@@ -1,0 +1,252 @@
+// The point evaluator: source, Gaussian prefix, one conversion to Fock space, the remaining
+// steps as Kraus sums, the automatic cutoff, and the figures of merit (PHYSICS.md §0.1).
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <optional>
+#include <string>
+
+#include "heraldry/gaussian.hpp"
+#include "heraldry/measures.hpp"
+#include "steps/detail.hpp"
+
+namespace heraldry::steps {
+
+namespace {
+
+// Below this a success probability is not a resolvable number in double precision.
+constexpr double smallest_probability = 1e-300;
+constexpr int max_cutoff_rounds = 40;
+
+void check_channel(const link::Channel& c, const std::string& key) {
+  if (!(c.transmissivity >= 0.0 && c.transmissivity <= 1.0))
+    detail::fail(key + ".transmissivity", c.transmissivity, "a value in [0, 1]");
+  if (!(c.bath_photons >= 0.0) || !std::isfinite(c.bath_photons))
+    detail::fail(key + ".bath_photons", c.bath_photons, "a finite occupation >= 0");
+}
+
+void check_point(const PointSpec& spec) {
+  if (!(spec.squeezing_r >= 0.0) || !std::isfinite(spec.squeezing_r))
+    detail::fail("source.squeezing", spec.squeezing_r, "a finite squeezing parameter >= 0");
+  if (!(spec.thermal_photons >= 0.0) || !std::isfinite(spec.thermal_photons))
+    detail::fail("source.thermal_photons", spec.thermal_photons, "a finite occupation >= 0");
+  check_channel(spec.channel_a, "link.a");
+  check_channel(spec.channel_b, "link.b");
+  if (!(spec.tolerance > 0.0 && spec.tolerance < 1.0))
+    detail::fail("numerics.tolerance", spec.tolerance, "a value in (0, 1)");
+  if (spec.cutoff < 0) detail::fail("numerics.cutoff", spec.cutoff, "an integer >= 0 (0: auto)");
+  if (!(spec.max_memory_bytes > 0.0)) detail::fail("numerics.max_memory", spec.max_memory_bytes, "a size > 0");
+  for (std::size_t i = 0; i < spec.counters.size(); ++i) validate(spec.counters[i], "counters[" + std::to_string(i) + "]");
+  for (const auto& s : spec.steps) {
+    if (s.kind == StepKind::loss) check_channel({s.transmissivity, s.bath_photons}, "loss");
+    if (s.kind == StepKind::tap || s.kind == StepKind::add || s.kind == StepKind::scissors) {
+      if (s.counter < 0 || s.counter >= static_cast<int>(spec.counters.size()))
+        detail::fail(std::string(to_string(s.kind)) + ".counter", s.counter,
+                     "the index of one of the " + std::to_string(spec.counters.size()) + " counters of the point");
+      if (s.kind != StepKind::scissors) reading_probability(spec.counters[s.counter], s.counts, 0);  // throws if bad
+    }
+  }
+}
+
+bool uses_counters(const std::vector<StepSpec>& steps) {
+  return std::any_of(steps.begin(), steps.end(), [](const StepSpec& s) {
+    return s.kind == StepKind::tap || s.kind == StepKind::add || s.kind == StepKind::scissors;
+  });
+}
+
+// Dark counts are the only source of counts without photons: without them the genuine weights
+// equal the full ones.
+bool any_dark_counts(const PointSpec& spec, std::size_t first) {
+  for (std::size_t i = first; i < spec.steps.size(); ++i) {
+    const auto& s = spec.steps[i];
+    if ((s.kind == StepKind::tap || s.kind == StepKind::add || s.kind == StepKind::scissors) &&
+        spec.counters[s.counter].dark > 0.0)
+      return true;
+  }
+  return false;
+}
+
+fock::SectorState make_state(const gaussian::StandardForm& f, int n, fock::SectorState*) { return fock::sector_state(f, n); }
+fock::DenseState make_state(const gaussian::StandardForm& f, int n, fock::DenseState*) { return fock::dense_state(f, n); }
+
+// The largest cutoff whose state fits in the memory allowed (-1 if none).
+int largest_fitting_cutoff(fock::Engine engine, double max_bytes) {
+  int n = -1;
+  while (n < 100000 && fock::memory_bytes_for(engine, n + 1) <= max_bytes) ++n;
+  return n;
+}
+
+template <class State>
+class Evaluator {
+public:
+  Evaluator(const PointSpec& spec, const gaussian::StandardForm& form, std::size_t first)
+      : spec_(spec), form_(form), first_(first) {}
+
+  struct Run {
+    State state;
+    double probability;
+    double ledger;
+    double cut_fraction;
+    double error() const {
+      return probability > 0.0 ? ledger / probability : std::numeric_limits<double>::infinity();
+    }
+  };
+
+  Run run(int cutoff, Weighting weighting) {
+    State state = make_state(form_, cutoff, static_cast<State*>(nullptr));
+    detail::StepContext context{spec_, weighting, work_};
+    for (std::size_t i = first_; i < spec_.steps.size(); ++i) detail::apply_step(state, spec_.steps[i], context);
+    const double p = state.trace(), ledger = state.truncation_loss();
+    return Run{std::move(state), p, ledger, context.amplifier_cut_fraction};
+  }
+
+  PointResult evaluate() {
+    PointResult result;
+    const fock::Engine engine = spec_.engine;
+    const double max_bytes = spec_.max_memory_bytes;
+    const double tol = spec_.tolerance;
+    std::optional<Run> last;
+    int last_cutoff = -1;
+    int needed = 0;
+
+    if (spec_.cutoff > 0) {
+      const double bytes = fock::memory_bytes_for(engine, spec_.cutoff);
+      if (bytes > max_bytes)
+        detail::fail("numerics.cutoff", std::to_string(spec_.cutoff),
+                     "a cutoff whose state fits in the memory allowed (" + std::to_string(max_bytes / 1048576.0) +
+                             " MB; this one needs " + std::to_string(bytes / 1048576.0) + " MB)");
+      last = run(spec_.cutoff, Weighting::full);
+      last_cutoff = spec_.cutoff;
+      needed = spec_.cutoff;
+      if (!(last->error() <= tol)) {
+        // Estimate the cutoff the tolerance needs from a second, cheaper run.
+        const int smaller = std::max(1, (3 * spec_.cutoff) / 4);
+        if (smaller < spec_.cutoff) {
+          const Run probe = run(smaller, Weighting::full);
+          needed = extrapolate(smaller, probe.error(), spec_.cutoff, last->error(), tol);
+        } else {
+          needed = spec_.cutoff + 1;
+        }
+      }
+    } else {
+      int cutoff = 1;
+      bool fits = true;
+      try {
+        cutoff = std::max(1, fock::auto_cutoff_gaussian(form_, tol, engine, max_bytes));
+      } catch (const fock::CutoffError& e) {
+        cutoff = e.needed_cutoff();
+        fits = false;
+      }
+      int prev_cutoff = -1;
+      double prev_error = 0.0;
+      for (int round = 0; round < max_cutoff_rounds; ++round) {
+        if (!fits || fock::memory_bytes_for(engine, cutoff) > max_bytes) {
+          // Refuse to go beyond the memory bound; give the figures at the largest affordable
+          // cutoff and say what the tolerance needs.
+          needed = cutoff;
+          const int fit = largest_fitting_cutoff(engine, max_bytes);
+          if (fit > last_cutoff && fit >= 0) {
+            last = run(fit, Weighting::full);
+            last_cutoff = fit;
+          }
+          break;
+        }
+        last = run(cutoff, Weighting::full);
+        last_cutoff = cutoff;
+        needed = cutoff;
+        const double err = last->error();
+        if (err <= tol) break;
+        int next = static_cast<int>(std::ceil(1.25 * cutoff + 2.0));
+        if (prev_cutoff >= 0) next = std::max(cutoff + 1, std::min(2 * cutoff + 4, extrapolate(prev_cutoff, prev_error, cutoff, err, tol) + 1));
+        prev_cutoff = cutoff;
+        prev_error = err;
+        cutoff = next;
+        needed = next;
+      }
+    }
+
+    if (!last) {  // not even the smallest state fits
+      result.status = Status::truncation_budget_missed;
+      result.cutoff_needed = needed;
+      return result;
+    }
+    fill(result, *last, last_cutoff);
+    result.cutoff_needed = std::max(needed, last_cutoff);
+    if (result.status == Status::ok && !(last->error() <= tol)) result.status = Status::truncation_budget_missed;
+    return result;
+  }
+
+private:
+  // Smallest N with error <= tol on the geometric model error(N) = e1 q^{N - n1} through two
+  // runs; without a usable decay, one round more.
+  static int extrapolate(int n0, double e0, int n1, double e1, double tol) {
+    if (!(std::isfinite(e0) && std::isfinite(e1)) || e1 <= 0.0 || e0 <= e1 || n1 <= n0)
+      return static_cast<int>(std::ceil(1.25 * n1 + 2.0));
+    const double rate = std::log(e1 / e0) / (n1 - n0);  // < 0
+    const double steps = std::ceil(std::log(tol / e1) / rate);
+    return n1 + static_cast<int>(std::clamp(steps, 1.0, 1e6));
+  }
+
+  void fill(PointResult& r, const Run& run, int cutoff) {
+    r.cutoff = cutoff;
+    r.success_probability = run.probability;
+    r.amplifier_cut_fraction = run.cut_fraction;
+    const double p = run.probability;
+    if (!(p >= smallest_probability) || !(p > run.ledger)) {
+      r.status = Status::herald_below_roundoff;
+      r.truncation_error = p > 0.0 ? run.ledger / p : 0.0;
+      if (!std::isfinite(r.truncation_error)) r.truncation_error = 0.0;
+      r.success_probability = std::max(0.0, p);
+      return;
+    }
+    r.truncation_error = run.ledger / p;
+    const auto e = measures::entanglement(run.state, measures_work_);
+    r.negativity = e.negativity;
+    r.log_negativity = e.log_negativity;
+    r.fidelity = measures::fidelity(run.state, measures_work_);
+    if (uses_counters({spec_.steps.begin() + static_cast<std::ptrdiff_t>(first_), spec_.steps.end()}) &&
+        any_dark_counts(spec_, first_)) {
+      const double genuine = this->run(cutoff, Weighting::genuine).probability;
+      r.false_herald_fraction = std::clamp(1.0 - genuine / p, 0.0, 1.0);
+    }
+    r.status = Status::ok;
+    for (double x : {r.success_probability, r.negativity, r.log_negativity, r.fidelity, r.false_herald_fraction,
+                     r.truncation_error, r.amplifier_cut_fraction})
+      if (!std::isfinite(x)) r.status = Status::invalid_result;
+    if (r.status == Status::invalid_result) {
+      r.negativity = r.log_negativity = r.fidelity = r.false_herald_fraction = 0.0;
+      if (!std::isfinite(r.success_probability)) r.success_probability = 0.0;
+      if (!std::isfinite(r.truncation_error)) r.truncation_error = 0.0;
+    }
+  }
+
+  const PointSpec& spec_;
+  gaussian::StandardForm form_;
+  std::size_t first_;
+  fock::Workspace work_;
+  measures::Workspace measures_work_;
+};
+
+}  // namespace
+
+PointResult evaluate(const PointSpec& spec) {
+  check_point(spec);
+  // Gaussian prefix: leading link and loss steps act on the covariance matrix (exact), so the
+  // state enters Fock space once, after the last Gaussian step (PHYSICS.md §2.3, pitfall 6).
+  gaussian::StandardForm form = gaussian::tmst(spec.squeezing_r, spec.thermal_photons);
+  std::size_t first = 0;
+  for (; first < spec.steps.size(); ++first) {
+    const auto& s = spec.steps[first];
+    if (s.kind == StepKind::link) {
+      form = gaussian::apply(gaussian::apply(form, Mode::A, spec.channel_a), Mode::B, spec.channel_b);
+    } else if (s.kind == StepKind::loss) {
+      form = gaussian::apply(form, s.mode, link::Channel{s.transmissivity, s.bath_photons});
+    } else {
+      break;
+    }
+  }
+  if (spec.engine == fock::Engine::sector) return Evaluator<fock::SectorState>(spec, form, first).evaluate();
+  return Evaluator<fock::DenseState>(spec, form, first).evaluate();
+}
+
+}  // namespace heraldry::steps

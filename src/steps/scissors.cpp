@@ -1,0 +1,87 @@
+// Step `scissors`: single-photon quantum scissors (Pegg, Phillips & Barnett, PRL 81, 1604
+// (1998)) as a noiseless amplifier (Ralph & Lund, AIP Conf. Proc. 1110, 155 (2009)), with real
+// counters and an imperfect single-photon source.
+//
+// Network and convention. The ancilla photon (creation operator c^dagger) meets vacuum on a
+// beam splitter of reflectivity kappa = g^2 / (1 + g^2):
+//     c^dagger -> sqrt(kappa) o^dagger + sqrt(1 - kappa) e^dagger,
+// o the output mode (it replaces the input mode), e the arm towards the second beam splitter.
+// There the input mode a meets e on a 50:50 beam splitter watched by counters 1 and 2:
+//     a^dagger -> (d1^dagger + d2^dagger) / sqrt(2),   e^dagger -> (d1^dagger - d2^dagger) / sqrt(2).
+// Expanding (a^dagger)^n / sqrt(n!) times the ancilla gives the amplitude of k1, k2 photons at
+// the counters (J = k1 + k2) and m photons in the output:
+//   photon ancilla, input n = J - 1, m = 0:  sqrt(1-kappa) 2^{-J/2} (k1 - k2) sqrt(C(J,k1) / J)
+//   photon ancilla, input n = J,     m = 1:  sqrt(kappa) 2^{-J/2} sqrt(C(J,k1))
+//   vacuum ancilla, input n = J,     m = 0:  2^{-J/2} sqrt(C(J,k1))
+// (the first from (d1+d2)^n (d1-d2) whose d1^{k1} d2^{k2} coefficient is
+// n! (k1 - k2) / (k1! k2!)). With ideal number-resolving counters the herald (1,0) gives
+// T_+ = sqrt((1-kappa)/2)(|0><0| + g|1><1|) and (0,1) gives -T_-: the pi phase |1> -> -|1> on
+// the output of the (0,1) herald makes both T_+ (PHYSICS.md §5.2).
+// Counters see photon numbers, so for each herald the map is a sum over (k1, k2) of rank-one
+// terms weighted by w1(k1) w2(k2); each is a shift operator of shift m - n, merged per shift.
+#include <cmath>
+
+#include "steps/detail.hpp"
+
+namespace heraldry::steps {
+
+fock::Operation scissors_operation(double gain, double source_efficiency,
+                                   const CounterModel& counter, int cutoff, Weighting weighting,
+                                   bool phase_correction) {
+  const double g = gain;
+  if (!(g > 0.0) || !std::isfinite(g)) detail::fail("scissors.gain", g, "a gain > 0");
+  const double ps = source_efficiency;
+  if (!(ps >= 0.0 && ps <= 1.0))
+    detail::fail("scissors.photon_source_efficiency", ps, "a probability in [0, 1]");
+  validate(counter, "scissors.counter");
+  const double kappa = g * g / (1.0 + g * g);
+  const double one_minus_kappa = 1.0 / (1.0 + g * g);
+
+  // Herald: exactly one counter fires (threshold: click / no click; resolving: 1 / 0 counts).
+  const int max_j = cutoff + 1;
+  const std::vector<double> fire = reading_weights(counter, 1, max_j, weighting);
+  const std::vector<double> silent = reading_weights(counter, 0, max_j, weighting);
+
+  std::vector<fock::ShiftOperator> raw;
+  for (int outcome = 0; outcome < 2; ++outcome) {
+    const double sign = (outcome == 1 && phase_correction) ? -1.0 : 1.0;
+    for (int j = 0; j <= max_j; ++j) {
+      const double scale = std::pow(2.0, -0.5 * j);
+      for (int k1 = 0; k1 <= j; ++k1) {
+        const int k2 = j - k1;
+        const double w = outcome == 0 ? fire[k1] * silent[k2] : silent[k1] * fire[k2];
+        if (w == 0.0) continue;
+        const double root_c = std::sqrt(detail::binomial(j, k1));
+        if (ps > 0.0) {
+          fock::ShiftOperator k{1 - j, std::vector<double>(cutoff + 1, 0.0)};
+          const double amp = std::sqrt(ps * w) * scale;
+          if (j >= 1 && j - 1 <= cutoff)
+            k.coeff[j - 1] = amp * std::sqrt(one_minus_kappa) * (k1 - k2) * root_c / std::sqrt(double(j));
+          if (j <= cutoff) k.coeff[j] = sign * amp * std::sqrt(kappa) * root_c;
+          raw.push_back(std::move(k));
+        }
+        if (ps < 1.0 && j <= cutoff) {
+          fock::ShiftOperator k{-j, std::vector<double>(cutoff + 1, 0.0)};
+          k.coeff[j] = std::sqrt((1.0 - ps) * w) * scale * root_c;
+          raw.push_back(std::move(k));
+        }
+      }
+    }
+  }
+  return detail::merge_by_shift(raw);
+}
+
+}  // namespace heraldry::steps
+
+namespace heraldry::steps::detail {
+
+template <class State>
+void apply_scissors(State& state, const StepSpec& step, StepContext& context) {
+  fock::apply(state, step.mode,
+              scissors_operation(step.gain, step.photon_source_efficiency, counter_of(step, context),
+                                 state.cutoff(), context.weighting),
+              context.work);
+}
+HERALDRY_STEPS_INSTANTIATE(apply_scissors)
+
+}  // namespace heraldry::steps::detail
