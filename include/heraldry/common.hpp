@@ -43,10 +43,7 @@ private:
                             const std::string& value, const std::string& expected,
                             const std::string& hint) {
     std::string s = file.empty() ? std::string("<input>") : file;
-    if (line > 0) {
-      s += ":";
-      s += std::to_string(line);
-    }
+    if (line > 0) s += ":" + std::to_string(line);
     // Appended piece by piece: g++ 12 -O3 warns (-Wrestrict, falsely) on chained operator+.
     s += ": key '";
     s += key;
