@@ -177,9 +177,11 @@ private:
   double limit_bytes_;
 };
 
-/// Smallest N with gaussian_trace_deficit(form, N) < tolerance (PHYSICS.md §3.5). Throws
-/// CutoffError naming that N and its memory when memory_bytes_for(engine, N) exceeds
-/// max_memory_bytes, and std::invalid_argument unless 0 < tolerance < 1.
+/// Smallest N with gaussian_trace_deficit(form, N) < tolerance (PHYSICS.md §3.5), found by
+/// bisection between the marginal bounds max(q_A, q_B)^{N+1} <= deficit <= q_A^{N+1} + q_B^{N+1}.
+/// Throws CutoffError naming that N and its memory when memory_bytes_for(engine, N) exceeds
+/// max_memory_bytes (for hopeless states, needing N > 4096, the lower bound is named at once
+/// instead), and std::invalid_argument unless 0 < tolerance < 1.
 int auto_cutoff_gaussian(const gaussian::StandardForm& form, double tolerance, Engine engine,
                          double max_memory_bytes);
 
@@ -187,7 +189,9 @@ int auto_cutoff_gaussian(const gaussian::StandardForm& form, double tolerance, E
 
 /// Kraus operators of the pure-loss channel of transmissivity tau in [0, 1] (PHYSICS.md §3.3):
 /// A_k |n> = sqrt(C(n,k) tau^{n-k} (1-tau)^k) |n-k>, k = 0..N, shift -k (0^0 = 1). Complete on
-/// n <= N: sum_k A_k^T A_k = I.
+/// n <= N: sum_k A_k^T A_k = I. Operators that vanish identically (tau = 1: k >= 1) are left out.
+/// Coefficients here and in amplifier() are evaluated in log space (lgamma): no factorial or
+/// binomial overflows at N = 150 and beyond.
 Operation pure_loss(double tau, int cutoff);
 
 /// Kraus operators of the quantum-limited amplifier of gain G >= 1 (PHYSICS.md §3.3):
