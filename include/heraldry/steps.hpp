@@ -144,7 +144,10 @@ struct PointResult {
   double log_negativity = 0.0;
   double fidelity = 0.0;                 // Braunstein-Kimble, unit gain, coherent inputs
   double false_herald_fraction = 0.0;    // 1 - P_genuine / P
-  double truncation_error = 0.0;         // ledger / P: relative bound on the heralded state
+  /// ledger / P. Bounds the relative error of P. The normalised heralded state is accurate to
+  /// about 2 sqrt(truncation_error) in trace norm (the dropped tail's coherences with the kept
+  /// part, by Cauchy-Schwarz: the gentle-measurement bound), and so are E_N and F.
+  double truncation_error = 0.0;
   double amplifier_cut_fraction = 0.0;   // largest input weight above N cut by an amplify step
   int cutoff = 0;                        // the cutoff the figures were computed at
   int cutoff_needed = 0;                 // the cutoff the tolerance needs (estimate if missed)
@@ -152,9 +155,17 @@ struct PointResult {
 
 /// Evaluates one point. Leading link/loss steps act on the covariance matrix; the state is then
 /// converted to Fock space once (closed form) and the remaining steps act as Kraus sums.
+/// Auto cutoff: from the Gaussian estimate (fock::auto_cutoff_gaussian on the prefix state),
+/// raised (x1.25 + 2, or by extrapolating the geometric decay of the error once two cutoffs
+/// are known) until truncation_error <= tolerance. The conversion ledger is the Gaussian trace
+/// deficit computed directly, so tolerances far below 1e-16 P are reachable.
 /// Numerical outcomes are statuses, never exceptions: truncation_budget_missed when the
-/// tolerance needs more memory than max_memory_bytes (cutoff_needed says how much cutoff),
-/// herald_below_roundoff when P < 1e-300 or P does not exceed the truncation ledger.
+/// tolerance needs more memory than max_memory_bytes, when a fixed cutoff misses it, or when the
+/// error stops falling with the cutoff (cutoff_needed: the cutoff the tolerance needs,
+/// extrapolated); herald_below_roundoff when P < 1e-300 or P does not exceed the truncation
+/// ledger (the figures are then 0 but P). Figures are never NaN; invalid_result if a guard
+/// catches a non-finite one. A protocol with counters but no dark counts has no false heralds
+/// (0 without a second run); otherwise the steps run a second time with genuine weights.
 /// Throws InputError for inconsistent input (a counter index out of range, a parameter out of
 /// its domain, a fixed cutoff whose state does not fit in max_memory_bytes).
 PointResult evaluate(const PointSpec& spec);
