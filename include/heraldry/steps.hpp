@@ -96,7 +96,7 @@ fock::Operation tap_operation(double transmissivity, const CounterModel& counter
 /// idler acts on the mode as the quantum-limited amplifier of gain G = cosh^2 s,
 /// B_k = sqrt(C(n+k,k)) G^{-(n+1)/2} (1-1/G)^{k/2} |n+k><n| with k photons in the idler;
 /// K_k = sqrt(w(k)) B_k. The k >= N+1 terms, which leave the truncated space entirely, are
-/// lumped into one operator of shift N+1 (it only feeds the ledger).
+/// lumped into one operator of shift N+1 (it only feeds the ledger). 0 <= s <= 3.
 fock::Operation add_operation(double squeezing, const CounterModel& counter, int reading,
                               int cutoff, Weighting weighting = Weighting::full);
 
