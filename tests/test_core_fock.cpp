@@ -338,3 +338,44 @@ TEST_CASE("a sector state refuses elements outside the U(1) pattern and the cuto
   CHECK_THROWS_AS(sector_state({1.0, 1.0, 0.5}, 4), std::invalid_argument);   // unphysical
   CHECK_THROWS_AS(sector_state({2.0, 2.0, -1.0}, 4), std::invalid_argument);  // c < 0
 }
+
+TEST_CASE("a truncated pure state lies 2 sqrt(ledger) away in trace norm, as the header states") {
+  // Closed form: for |psi> with weight e above the cutoff, || |psi><psi| - P|psi><psi|P ||_1 =
+  // sqrt(4e - 3e^2) (two rank-one projectors; gentle-measurement lemma, Winter, IEEE Trans. Inf.
+  // Theory 45, 2481 (1999)). TMSV at cutoff N against the same state at cutoff 200 (e ~ 1e-60).
+  const double r = 0.6;
+  const auto big = sector_tmsv(r, 200);
+  for (int n : {3, 8, 15}) {
+    const auto small = sector_tmsv(r, n);
+    Eigen::MatrixXd diff = big.block(0);
+    diff.topLeftCorner(n + 1, n + 1) -= small.block(0);
+    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> es(diff, Eigen::EigenvaluesOnly);
+    const double distance = es.eigenvalues().cwiseAbs().sum();
+    const double e = small.truncation_loss();
+    CHECK(distance == doctest::Approx(std::sqrt(4 * e - 3 * e * e)).epsilon(1e-9));
+    CHECK(distance > e);  // the ledger alone does not bound the matrix error
+  }
+}
+
+TEST_CASE("a raising operator sends exactly the weight of the top level above the cutoff") {
+  // a^dagger |n> = sqrt(n+1) |n+1> (closed form): only |N> leaves the space, with weight
+  // (N + 1) p_N; a lowering operator loses nothing to the cutoff (its failure is not truncation).
+  const int cutoff = 10;
+  const auto form = gaussian::tmst(0.9, 0.1);
+  ShiftOperator up{1, std::vector<double>(cutoff + 1)}, down{-1, std::vector<double>(cutoff + 1)};
+  for (int n = 0; n <= cutoff; ++n) {
+    up.coeff[n] = std::sqrt(n + 1.0);
+    down.coeff[n] = std::sqrt(double(n));
+  }
+  auto s = sector_state(form, cutoff);
+  const double before = s.truncation_loss();
+  const double top = photon_distribution(s, Mode::B)(cutoff);
+  apply(s, Mode::B, Operation{{up}});
+  CHECK(s.truncation_loss() - before == doctest::Approx((cutoff + 1) * top).epsilon(1e-14));
+  auto d = dense_state(form, cutoff);
+  apply(d, Mode::A, Operation{{down}});
+  CHECK(d.truncation_loss() == doctest::Approx(before).epsilon(1e-14));
+  // A lowering operator with a coefficient on |0> is a programmer error.
+  ShiftOperator bad{-1, {0.5, 1.0}};
+  CHECK_THROWS_AS(apply(d, Mode::A, Operation{{bad}}), std::invalid_argument);
+}

@@ -100,7 +100,8 @@ void displacement_elements(double alpha, Eigen::Ref<Eigen::MatrixXd> out);
 /// none): nodes from the eigenvalues of the Jacobi matrix (Golub & Welsch, Math. Comp. 23, 221
 /// (1969)), polished by Newton steps on L_n; weights from w_i = 1 / (x_i L_n'(x_i)^2)
 /// (Abramowitz & Stegun 25.4.45), stored scaled as w_i e^{x_i} and evaluated with the
-/// e^{-x/2}-scaled Laguerre recurrence so that nothing under- or overflows for n up to ~1000.
+/// e^{-x/2}-scaled Laguerre recurrence so that nothing overflows. Exact to round-off for
+/// n <= ~350; nodes beyond x ~ 1400 (larger rules) get weight 0 (their true weight is < e^{-1400}).
 struct LaguerreRule {
   std::vector<double> nodes;
   std::vector<double> scaled_weights;  // w_i e^{x_i}

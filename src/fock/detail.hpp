@@ -4,7 +4,13 @@
 #include <cmath>
 #include <vector>
 
+#include "heraldry/fock.hpp"
+
 namespace heraldry::fock::detail {
+
+/// Photon distribution of one mode into p (resized to N + 1; no allocation when it already is).
+void photon_distribution(const SectorState& s, Mode mode, Eigen::VectorXd& p);
+void photon_distribution(const DenseState& s, Mode mode, Eigen::VectorXd& p);
 
 /// ln k! for k = 0..n (std::lgamma, accurate to a few ulp of the result).
 inline std::vector<double> log_factorials(int n) {
@@ -19,8 +25,7 @@ inline double power_log(int e, double x) {
   return x > 0.0 ? e * std::log(x) : -INFINITY;
 }
 
-/// Index of block d in a sector state of cutoff n.
-inline int lowest(int d) { return d > 0 ? d : 0; }
+/// n_a of the last row of block d = n_a - n_b at cutoff n: min(n, n + d).
 inline int highest(int d, int n) { return d < 0 ? n + d : n; }
 
 }  // namespace heraldry::fock::detail

@@ -67,7 +67,8 @@ double pow_log(int e, double log_x) { return e == 0 ? 0.0 : e * log_x; }
 // term(j+1)/term(j) = [t^2/(s_A s_B)] (mA-j)(mB-j) / [(j+1)(j+1-δ)], with rescaling, so one
 // exp and one log per element. Otherwise (a parameter is 0, e.g. a pure state) each term in
 // log space; the vanishing ones cost no exponential.
-double element(const Husimi& h, const std::vector<double>& lf, int ma, int mb, int na, int nb) {
+double element(const Husimi& h, const std::vector<double>& lf, const std::vector<double>& inv, int ma, int mb,
+               int na, int nb) {
   const int delta = ma - na;
   const int jlo = std::max(0, delta), jhi = std::min(ma, mb);
   if (jlo > jhi) return 0.0;
@@ -88,7 +89,7 @@ double element(const Husimi& h, const std::vector<double>& lf, int ma, int mb, i
   const double ratio = std::exp(h.log_ratio);
   double log_scale = log_term(jlo), term = 1.0, sum = 1.0;
   for (int j = jlo; j < jhi; ++j) {
-    term *= ratio * (static_cast<double>(ma - j) * (mb - j)) / ((j + 1.0) * (j + 1.0 - delta));
+    term *= ratio * (static_cast<double>(ma - j) * (mb - j)) * (inv[j + 1] * inv[j + 1 - delta]);
     sum += term;
     if (sum > big) {
       term /= big;
@@ -109,6 +110,13 @@ void multiply_series(const std::vector<double>& x, const std::vector<double>& y,
   }
 }
 
+// 1/k for k = 1..n (index 0 unused).
+std::vector<double> reciprocals(int n) {
+  std::vector<double> inv(static_cast<std::size_t>(n) + 1, 0.0);
+  for (int k = 1; k <= n; ++k) inv[k] = 1.0 / k;
+  return inv;
+}
+
 void require_cutoff(int cutoff) {
   if (cutoff < 0)
     throw std::invalid_argument("heraldry::fock: cutoff must be >= 0, got " + std::to_string(cutoff));
@@ -120,6 +128,7 @@ SectorState sector_state(const gaussian::StandardForm& form, int cutoff) {
   require_cutoff(cutoff);
   const Husimi h = husimi(form);
   const auto lf = detail::log_factorials(cutoff);
+  const auto inv = reciprocals(2 * cutoff + 1);
   SectorState s(cutoff);
   for (int d = -cutoff; d <= cutoff; ++d) {
     auto& b = s.block(d);
@@ -127,7 +136,7 @@ SectorState sector_state(const gaussian::StandardForm& form, int cutoff) {
     for (int i = 0; i < b.rows(); ++i)
       for (int j = i; j < b.cols(); ++j) {
         const int ma = lo + i, na = lo + j;
-        b(i, j) = b(j, i) = element(h, lf, ma, ma - d, na, na - d);
+        b(i, j) = b(j, i) = element(h, lf, inv, ma, ma - d, na, na - d);
       }
   }
   s.add_truncation_loss(std::max(0.0, 1.0 - s.trace()));
@@ -138,13 +147,14 @@ DenseState dense_state(const gaussian::StandardForm& form, int cutoff) {
   require_cutoff(cutoff);
   const Husimi h = husimi(form);
   const auto lf = detail::log_factorials(cutoff);
+  const auto inv = reciprocals(2 * cutoff + 1);
   DenseState s(cutoff);
   for (int ma = 0; ma <= cutoff; ++ma)
     for (int mb = 0; mb <= cutoff; ++mb)
       for (int na = 0; na <= cutoff; ++na) {
         const int nb = na - (ma - mb);  // the U(1) pattern; every other element is 0
         if (nb < 0 || nb > cutoff) continue;
-        s.matrix()(s.index(ma, mb), s.index(na, nb)) = element(h, lf, ma, mb, na, nb);
+        s.matrix()(s.index(ma, mb), s.index(na, nb)) = element(h, lf, inv, ma, mb, na, nb);
       }
   s.add_truncation_loss(std::max(0.0, 1.0 - s.trace()));
   return s;

@@ -102,7 +102,8 @@ void apply(SectorState& state, Mode mode, const Operation& op, Workspace& work) 
   const int cutoff = state.cutoff();
   SectorState& out = work.sector_buffer(cutoff);
   out.set_zero();
-  const Eigen::VectorXd p = photon_distribution(state, mode);
+  Eigen::VectorXd& p = work.distribution_buffer(cutoff);
+  detail::photon_distribution(state, mode, p);
   double lost = 0.0;
   for (const auto& k : op.kraus) {
     check_shift(k, cutoff);
@@ -142,7 +143,8 @@ void apply(DenseState& state, Mode mode, const Operation& op, Workspace& work) {
   const int dim = cutoff + 1;
   DenseState& out = work.dense_buffer(cutoff);
   out.set_zero();
-  const Eigen::VectorXd p = photon_distribution(state, mode);
+  Eigen::VectorXd& p = work.distribution_buffer(cutoff);
+  detail::photon_distribution(state, mode, p);
   const Eigen::MatrixXd& in = state.matrix();
   Eigen::MatrixXd& o = out.matrix();
   double lost = 0.0;

@@ -143,22 +143,34 @@ SectorState to_sector(const DenseState& s) {
   return out;
 }
 
-Eigen::VectorXd photon_distribution(const SectorState& s, Mode mode) {
+namespace detail {
+void photon_distribution(const SectorState& s, Mode mode, Eigen::VectorXd& p) {
   const int n = s.cutoff();
-  Eigen::VectorXd p = Eigen::VectorXd::Zero(n + 1);
+  p.setZero(n + 1);
   for (int d = -n; d <= n; ++d) {
     const auto& b = s.block(d);
     const int lo = SectorState::first_photon(d);
     for (int i = 0; i < b.rows(); ++i) p(mode == Mode::A ? lo + i : lo + i - d) += b(i, i);
   }
+}
+
+void photon_distribution(const DenseState& s, Mode mode, Eigen::VectorXd& p) {
+  const int n = s.cutoff();
+  p.setZero(n + 1);
+  for (int a = 0; a <= n; ++a)
+    for (int b = 0; b <= n; ++b) p(mode == Mode::A ? a : b) += s.matrix()(s.index(a, b), s.index(a, b));
+}
+}  // namespace detail
+
+Eigen::VectorXd photon_distribution(const SectorState& s, Mode mode) {
+  Eigen::VectorXd p;
+  detail::photon_distribution(s, mode, p);
   return p;
 }
 
 Eigen::VectorXd photon_distribution(const DenseState& s, Mode mode) {
-  const int n = s.cutoff();
-  Eigen::VectorXd p = Eigen::VectorXd::Zero(n + 1);
-  for (int a = 0; a <= n; ++a)
-    for (int b = 0; b <= n; ++b) p(mode == Mode::A ? a : b) += s.matrix()(s.index(a, b), s.index(a, b));
+  Eigen::VectorXd p;
+  detail::photon_distribution(s, mode, p);
   return p;
 }
 
@@ -172,6 +184,11 @@ SectorState& Workspace::sector_buffer(int cutoff) {
 DenseState& Workspace::dense_buffer(int cutoff) {
   if (dense_.cutoff() != cutoff) DenseState(cutoff).swap(dense_);
   return dense_;
+}
+
+Eigen::VectorXd& Workspace::distribution_buffer(int cutoff) {
+  if (distribution_.size() != cutoff + 1) distribution_.resize(cutoff + 1);
+  return distribution_;
 }
 
 }  // namespace heraldry::fock

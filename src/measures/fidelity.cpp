@@ -171,7 +171,10 @@ LaguerreRule gauss_laguerre(int n) {
     // w = 1 / (x L_n'(x)^2) = x / (n^2 L_{n-1}(x)^2) at a zero of L_n; times e^x.
     const double dl = n * (ln - lm1);  // x L_n'(x) e^{-x/2}
     rule.nodes[static_cast<std::size_t>(i)] = x;
-    rule.scaled_weights[static_cast<std::size_t>(i)] = x / (dl * dl);
+    // Beyond x ~ 1400 (rules of more than ~350 nodes) e^{-x/2} underflows: those nodes carry
+    // true weights below e^{-1400} and get 0.
+    const double w = x / (dl * dl);
+    rule.scaled_weights[static_cast<std::size_t>(i)] = std::isfinite(w) ? w : 0.0;
   }
   return rule;
 }
