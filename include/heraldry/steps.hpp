@@ -144,9 +144,11 @@ struct PointResult {
   double log_negativity = 0.0;
   double fidelity = 0.0;                 // Braunstein-Kimble, unit gain, coherent inputs
   double false_herald_fraction = 0.0;    // 1 - P_genuine / P
-  /// ledger / P. Bounds the relative error of P. The normalised heralded state is accurate to
-  /// about 2 sqrt(truncation_error) in trace norm (the dropped tail's coherences with the kept
-  /// part, by Cauchy-Schwarz: the gentle-measurement bound), and so are E_N and F.
+  /// ledger / P. Bounds the relative error of P. The normalised heralded state is only bounded
+  /// to ~2 sqrt(truncation_error) in trace norm (the dropped tail's coherences with the kept
+  /// part: Cauchy-Schwarz after the heralding map, the gentle-measurement lemma; see
+  /// heraldry/fock.hpp); in practice F converges like truncation_error and E_N faster than its
+  /// square root. A tolerance of 1e-10 gives E_N to ~1e-5, 1e-16 to ~1e-8.
   double truncation_error = 0.0;
   double amplifier_cut_fraction = 0.0;   // largest input weight above N cut by an amplify step
   int cutoff = 0;                        // the cutoff the figures were computed at
