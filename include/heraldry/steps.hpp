@@ -96,7 +96,7 @@ fock::Operation tap_operation(double transmissivity, const CounterModel& counter
 /// idler acts on the mode as the quantum-limited amplifier of gain G = cosh^2 s,
 /// B_k = sqrt(C(n+k,k)) G^{-(n+1)/2} (1-1/G)^{k/2} |n+k><n| with k photons in the idler;
 /// K_k = sqrt(w(k)) B_k. The k >= N+1 terms, which leave the truncated space entirely, are
-/// lumped into one operator of shift N+1 (it only feeds the ledger).
+/// lumped into one operator of shift N+1 (it only feeds the ledger). 0 <= s <= 3.
 fock::Operation add_operation(double squeezing, const CounterModel& counter, int reading,
                               int cutoff, Weighting weighting = Weighting::full);
 
@@ -144,7 +144,12 @@ struct PointResult {
   double log_negativity = 0.0;
   double fidelity = 0.0;                 // Braunstein-Kimble, unit gain, coherent inputs
   double false_herald_fraction = 0.0;    // 1 - P_genuine / P
-  double truncation_error = 0.0;         // ledger / P: relative bound on the heralded state
+  /// ledger / P. Bounds the relative error of P. The normalised heralded state is only bounded
+  /// to ~2 sqrt(truncation_error) in trace norm (the dropped tail's coherences with the kept
+  /// part: Cauchy-Schwarz after the heralding map, the gentle-measurement lemma; see
+  /// heraldry/fock.hpp); in practice F converges like truncation_error and E_N faster than its
+  /// square root. A tolerance of 1e-10 gives E_N to ~1e-5, 1e-16 to ~1e-8.
+  double truncation_error = 0.0;
   double amplifier_cut_fraction = 0.0;   // largest input weight above N cut by an amplify step
   int cutoff = 0;                        // the cutoff the figures were computed at
   int cutoff_needed = 0;                 // the cutoff the tolerance needs (estimate if missed)
@@ -152,9 +157,17 @@ struct PointResult {
 
 /// Evaluates one point. Leading link/loss steps act on the covariance matrix; the state is then
 /// converted to Fock space once (closed form) and the remaining steps act as Kraus sums.
+/// Auto cutoff: from the Gaussian estimate (fock::auto_cutoff_gaussian on the prefix state),
+/// raised (x1.25 + 2, or by extrapolating the geometric decay of the error once two cutoffs
+/// are known) until truncation_error <= tolerance. The conversion ledger is the Gaussian trace
+/// deficit computed directly, so tolerances far below 1e-16 P are reachable.
 /// Numerical outcomes are statuses, never exceptions: truncation_budget_missed when the
-/// tolerance needs more memory than max_memory_bytes (cutoff_needed says how much cutoff),
-/// herald_below_roundoff when P < 1e-300 or P does not exceed the truncation ledger.
+/// tolerance needs more memory than max_memory_bytes, when a fixed cutoff misses it, or when the
+/// error stops falling with the cutoff (cutoff_needed: the cutoff the tolerance needs,
+/// extrapolated); herald_below_roundoff when P < 1e-300 or P does not exceed the truncation
+/// ledger (the figures are then 0 but P). Figures are never NaN; invalid_result if a guard
+/// catches a non-finite one. A protocol with counters but no dark counts has no false heralds
+/// (0 without a second run); otherwise the steps run a second time with genuine weights.
 /// Throws InputError for inconsistent input (a counter index out of range, a parameter out of
 /// its domain, a fixed cutoff whose state does not fit in max_memory_bytes).
 PointResult evaluate(const PointSpec& spec);

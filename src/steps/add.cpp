@@ -19,7 +19,9 @@ double log_amplifier_weight(int n, int k, double log_cosh, double log_tanh) {
 fock::Operation add_operation(double squeezing, const CounterModel& counter, int reading,
                               int cutoff, Weighting weighting) {
   const double s = squeezing;
-  if (!(s >= 0.0) || !std::isfinite(s)) detail::fail("add.squeezing", s, "a squeezing parameter >= 0");
+  // Heralded addition is a weak-squeezing device; s <= 3 (gain cosh^2 s ~ 100) also keeps the
+  // numerical tail sum below short.
+  if (!(s >= 0.0 && s <= 3.0)) detail::fail("add.squeezing", s, "a squeezing parameter in [0, 3]");
   validate(counter, "add.counter");
   fock::Operation op;
   if (s == 0.0) {

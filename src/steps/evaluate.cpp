@@ -66,8 +66,19 @@ bool any_dark_counts(const PointSpec& spec, std::size_t first) {
   return false;
 }
 
-fock::SectorState make_state(const gaussian::StandardForm& f, int n, fock::SectorState*) { return fock::sector_state(f, n); }
-fock::DenseState make_state(const gaussian::StandardForm& f, int n, fock::DenseState*) { return fock::dense_state(f, n); }
+fock::SectorState convert(const gaussian::StandardForm& f, int n, fock::SectorState*) { return fock::sector_state(f, n); }
+fock::DenseState convert(const gaussian::StandardForm& f, int n, fock::DenseState*) { return fock::dense_state(f, n); }
+
+// The Gaussian state in Fock space with its ledger set to the trace deficit computed directly
+// (a sum of positive terms): 1 - trace has an absolute round-off of ~1e-16, which would hide
+// the truncation error of heralded states with small success probabilities.
+template <class State>
+State make_state(const gaussian::StandardForm& form, int cutoff) {
+  State state = convert(form, cutoff, static_cast<State*>(nullptr));
+  const double deficit = fock::gaussian_trace_deficit(form, cutoff);
+  state.add_truncation_loss(deficit - state.truncation_loss());
+  return state;
+}
 
 // The largest cutoff whose state fits in the memory allowed (-1 if none).
 int largest_fitting_cutoff(fock::Engine engine, double max_bytes) {
@@ -93,7 +104,7 @@ public:
   };
 
   Run run(int cutoff, Weighting weighting) {
-    State state = make_state(form_, cutoff, static_cast<State*>(nullptr));
+    State state = make_state<State>(form_, cutoff);
     detail::StepContext context{spec_, weighting, work_};
     for (std::size_t i = first_; i < spec_.steps.size(); ++i) detail::apply_step(state, spec_.steps[i], context);
     const double p = state.trace(), ledger = state.truncation_loss();
@@ -157,7 +168,17 @@ public:
         const double err = last->error();
         if (err <= tol) break;
         int next = static_cast<int>(std::ceil(1.25 * cutoff + 2.0));
-        if (prev_cutoff >= 0) next = std::max(cutoff + 1, std::min(2 * cutoff + 4, extrapolate(prev_cutoff, prev_error, cutoff, err, tol) + 1));
+        if (prev_cutoff >= 0) {
+          // No herald at two cutoffs in a row: the protocol cannot fire (e.g. ideal counters
+          // behind a tap of transmissivity 1); more photons will not change that.
+          if (!(last->probability >= smallest_probability) && !(prev_error < INFINITY)) break;
+          // The error no longer falls with the cutoff: round-off, not truncation, dominates.
+          if (std::isfinite(err) && err > 0.9 * prev_error) {
+            needed = extrapolate(prev_cutoff, prev_error, cutoff, err, tol);
+            break;
+          }
+          next = std::max(cutoff + 1, std::min(2 * cutoff + 4, extrapolate(prev_cutoff, prev_error, cutoff, err, tol) + 1));
+        }
         prev_cutoff = cutoff;
         prev_error = err;
         cutoff = next;
