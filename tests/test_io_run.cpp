@@ -59,7 +59,7 @@ name = "subtract both"
 steps = ["link", { tap = "a", transmissivity = 0.9, counter = "det" },
                  { tap = "b", transmissivity = [0.85, 0.9, 0.95], counter = "det" }]
 [numerics]
-cutoff = 24
+tolerance = 1e-7
 [output]
 file = "unused.h5"
 )";
@@ -127,7 +127,7 @@ TEST_CASE("a run writes every dataset of the layout with units, and its values e
     CHECK(en[flat] == r.log_negativity);
     CHECK(P[flat] == r.success_probability);
   }
-  // The bare protocol in Fock space equals the Gaussian layer (cutoff 24 at 5 dB: figures good to ~1e-7).
+  // The bare protocol in Fock space equals the Gaussian layer (within the 1e-7 tolerance).
   const auto bare_en = read_doubles(f, "/protocols/bare/log_negativity");
   const auto gauss_en = read_doubles(f, "/gaussian/log_negativity");
   for (std::size_t i = 0; i < bare_en.size(); ++i) CHECK(bare_en[i] == doctest::Approx(gauss_en[i]).epsilon(1e-5));
@@ -238,7 +238,6 @@ TEST_CASE("the verdict refines the fidelity-1/2 distance between grid points to 
 
   std::string text = small_scenario;
   text.replace(text.find("distance_m = { from = 0, to = 100, points = 6 }"), 47, "distance_m = { from = 0, to = 400, points = 21 }");
-  text.replace(text.find("cutoff = 24"), 11, "cutoff = 34");
   const scenario::Scenario wide = scenario::parse(text, "wide.toml");
   const fs::path dir = scratch("verdict");
   run::Options opt;

@@ -144,11 +144,12 @@ struct PointResult {
   double log_negativity = 0.0;
   double fidelity = 0.0;                 // Braunstein-Kimble, unit gain, coherent inputs
   double false_herald_fraction = 0.0;    // 1 - P_genuine / P
-  /// ledger / P. Bounds the relative error of P. The normalised heralded state is only bounded
-  /// to ~2 sqrt(truncation_error) in trace norm (the dropped tail's coherences with the kept
-  /// part: Cauchy-Schwarz after the heralding map, the gentle-measurement lemma; see
-  /// heraldry/fock.hpp); in practice F converges like truncation_error and E_N faster than its
-  /// square root. A tolerance of 1e-10 gives E_N to ~1e-5, 1e-16 to ~1e-8.
+  /// sqrt(ledger / P): the error scale of the figures due to the cutoff. The ledger / P itself
+  /// bounds the relative error of P; the normalised heralded state is only bounded to
+  /// ~2 sqrt(ledger / P) in trace norm (the dropped tail's coherences with the kept part:
+  /// Cauchy-Schwarz after the heralding map, the gentle-measurement lemma; see
+  /// heraldry/fock.hpp), and E_N follows it: a TMSV truncated with ledger 1e-10 is off by
+  /// ~1e-5 in E_N. Reporting the square root makes `tolerance` a bound on the figures.
   double truncation_error = 0.0;
   double amplifier_cut_fraction = 0.0;   // largest input weight above N cut by an amplify step
   int cutoff = 0;                        // the cutoff the figures were computed at
@@ -159,7 +160,7 @@ struct PointResult {
 /// converted to Fock space once (closed form) and the remaining steps act as Kraus sums.
 /// Auto cutoff: from the Gaussian estimate (fock::auto_cutoff_gaussian on the prefix state),
 /// raised (x1.25 + 2, or by extrapolating the geometric decay of the error once two cutoffs
-/// are known) until truncation_error <= tolerance. The conversion ledger is the Gaussian trace
+/// are known) until truncation_error = sqrt(ledger / P) <= tolerance. The conversion ledger is the Gaussian trace
 /// deficit computed directly, so tolerances far below 1e-16 P are reachable.
 /// Numerical outcomes are statuses, never exceptions: truncation_budget_missed when the
 /// tolerance needs more memory than max_memory_bytes, when a fixed cutoff misses it, or when the

@@ -98,8 +98,10 @@ public:
     double probability;
     double ledger;
     double cut_fraction;
+    // The error scale of the figures: sqrt(ledger / P) (see PointResult::truncation_error).
     double error() const {
-      return probability > 0.0 ? ledger / probability : std::numeric_limits<double>::infinity();
+      return probability > 0.0 ? std::sqrt(std::max(0.0, ledger) / probability)
+                               : std::numeric_limits<double>::infinity();
     }
   };
 
@@ -143,7 +145,7 @@ public:
       int cutoff = 1;
       bool fits = true;
       try {
-        cutoff = std::max(1, fock::auto_cutoff_gaussian(form_, tol, engine, max_bytes));
+        cutoff = std::max(1, fock::auto_cutoff_gaussian(form_, tol * tol, engine, max_bytes));
       } catch (const fock::CutoffError& e) {
         cutoff = e.needed_cutoff();
         fits = false;
@@ -215,12 +217,12 @@ private:
     const double p = run.probability;
     if (!(p >= smallest_probability) || !(p > run.ledger)) {
       r.status = Status::herald_below_roundoff;
-      r.truncation_error = p > 0.0 ? run.ledger / p : 0.0;
+      r.truncation_error = p > 0.0 ? run.error() : 0.0;
       if (!std::isfinite(r.truncation_error)) r.truncation_error = 0.0;
       r.success_probability = std::max(0.0, p);
       return;
     }
-    r.truncation_error = run.ledger / p;
+    r.truncation_error = run.error();
     const auto e = measures::entanglement(run.state, measures_work_);
     r.negativity = e.negativity;
     r.log_negativity = e.log_negativity;
