@@ -42,8 +42,11 @@ void request_stop();
 /// The bare link (Gaussian layer) on the distance grid.
 output::LinkTable link_table(const scenario::Scenario& sc);
 
-/// The verdict of a complete run (evaluates the target distance and refines crossings).
-verdict::Verdict compute_verdict(const scenario::Scenario& sc, const sweep::Plan& plan, const output::RunData& data);
+/// The verdict of a complete run: evaluates every swept setting at the target distance, keeps
+/// the best E_N, and refines the crossings between grid points (to 1e-4 of the grid step), in
+/// parallel on `threads` threads.
+verdict::Verdict compute_verdict(const scenario::Scenario& sc, const sweep::Plan& plan, const output::RunData& data,
+                                 int threads = 1);
 
 /// Runs (or resumes) the sweep. Throws InputError for a result that exists already (without
 /// force) or a checkpoint of another scenario; std::runtime_error for an unwritable output.

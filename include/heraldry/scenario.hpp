@@ -75,6 +75,7 @@ struct Numerics {
   double tolerance = 1e-10;             // truncation budget for "auto"
   int threads = 0;                      // 0: OMP_NUM_THREADS or all cores
   double max_memory_mb = 4096.0;        // the auto cutoff refuses to exceed this per state
+  int max_cutoff = 160;                 // the auto cutoff refuses to exceed this (time bound)
 };
 
 struct Output {

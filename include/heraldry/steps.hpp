@@ -135,6 +135,7 @@ struct PointSpec {
   int cutoff = 0;                        // per-mode photon-number cutoff; 0 = auto
   double tolerance = 1e-10;              // truncation budget (relative, on the heralded state)
   double max_memory_bytes = 4.0 * 1024 * 1024 * 1024;  // per state, for the auto cutoff
+  int max_cutoff = 160;                  // the auto cutoff never goes above this (time bound)
 };
 
 struct PointResult {

@@ -371,7 +371,7 @@ Numerics read_numerics(const Table& root) {
   Numerics n;
   const auto t = root.table("numerics");
   if (!t) return n;
-  t->only({"engine", "cutoff", "tolerance", "threads", "max_memory_mb"});
+  t->only({"engine", "cutoff", "tolerance", "threads", "max_memory_mb", "max_cutoff"});
   n.engine = t->choice("engine", {"sector", "dense"}).value_or(0) == 0 ? EngineKind::sector : EngineKind::dense;
   if (const toml::node* c = t->find("cutoff")) {
     const std::string expected = "\"auto\" or an integer in [1, " + std::to_string(max_cutoff) + "]";
@@ -387,6 +387,7 @@ Numerics read_numerics(const Table& root) {
   n.tolerance = t->number_or("tolerance", Bounds{0.0, 1e-2, true, false}, n.tolerance);
   n.threads = static_cast<int>(t->integer("threads", 0, INT_MAX).value_or(n.threads));
   n.max_memory_mb = t->number_or("max_memory_mb", positive, n.max_memory_mb);
+  n.max_cutoff = static_cast<int>(t->integer("max_cutoff", 1, max_cutoff).value_or(n.max_cutoff));
   return n;
 }
 

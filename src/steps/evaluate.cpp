@@ -36,6 +36,7 @@ void check_point(const PointSpec& spec) {
     detail::fail("numerics.tolerance", spec.tolerance, "a value in (0, 1)");
   if (spec.cutoff < 0) detail::fail("numerics.cutoff", spec.cutoff, "an integer >= 0 (0: auto)");
   if (!(spec.max_memory_bytes > 0.0)) detail::fail("numerics.max_memory", spec.max_memory_bytes, "a size > 0");
+  if (spec.max_cutoff < 1) detail::fail("numerics.max_cutoff", spec.max_cutoff, "an integer >= 1");
   for (std::size_t i = 0; i < spec.counters.size(); ++i) validate(spec.counters[i], "counters[" + std::to_string(i) + "]");
   for (const auto& s : spec.steps) {
     if (s.kind == StepKind::loss) check_channel({s.transmissivity, s.bath_photons}, "loss");
@@ -150,17 +151,18 @@ public:
         cutoff = e.needed_cutoff();
         fits = false;
       }
+      const int limit = std::min(spec_.max_cutoff, largest_fitting_cutoff(engine, max_bytes));
       int prev_cutoff = -1;
       double prev_error = 0.0;
       for (int round = 0; round < max_cutoff_rounds; ++round) {
-        if (!fits || fock::memory_bytes_for(engine, cutoff) > max_bytes) {
-          // Refuse to go beyond the memory bound; give the figures at the largest affordable
-          // cutoff and say what the tolerance needs.
+        if (!fits || cutoff > limit) {
+          // Refuse to go beyond the memory bound or the largest cutoff allowed; keep the
+          // figures of the last cutoff tried (or compute them at the limit if none was) and say
+          // what the tolerance needs.
           needed = cutoff;
-          const int fit = largest_fitting_cutoff(engine, max_bytes);
-          if (fit > last_cutoff && fit >= 0) {
-            last = run(fit, Weighting::full);
-            last_cutoff = fit;
+          if (!last && limit >= 0) {
+            last = run(limit, Weighting::full);
+            last_cutoff = limit;
           }
           break;
         }

@@ -166,6 +166,7 @@ steps::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
   spec.cutoff = sc.numerics.cutoff;
   spec.tolerance = sc.numerics.tolerance;
   spec.max_memory_bytes = sc.numerics.max_memory_mb * 1024.0 * 1024.0;
+  spec.max_cutoff = sc.numerics.max_cutoff;
   return spec;
 }
 

@@ -43,6 +43,33 @@ double bare_signed_log_negativity(const scenario::Scenario& sc, double d) {
 
 bool usable(const steps::PointResult& r) { return r.status == Status::ok; }
 
+// One line in words: does the protocol pay off at the target, and at what rate?
+std::string summarise(const sweep::ProtocolPlan& pp, const verdict::ProtocolVerdict& pv, const steps::PointResult& best,
+                      const verdict::Verdict& v) {
+  std::ostringstream line;
+  line.precision(3);
+  const double target = v.target_m;
+  if (!usable(best)) {
+    line << "no verdict at " << target << " m: " << to_string(best.status);
+    if (best.status == Status::truncation_budget_missed) line << " (needs cutoff " << best.cutoff_needed << ")";
+    return line.str();
+  }
+  const bool is_bare = pp.axes.size() == 1 && std::abs(best.success_probability - 1.0) < 1e-12;
+  if (is_bare) {
+    line << "no heralding: this is the link itself (E_N " << best.log_negativity << ", F " << best.fidelity << ")";
+    return line.str();
+  }
+  line << (pv.pays_off_log_negativity ? "pays off" : "does not pay off") << " at " << target << " m: E_N "
+       << best.log_negativity << " vs " << v.bare_log_negativity << " bare, F " << best.fidelity << " vs "
+       << v.bare_fidelity << " bare";
+  if (pv.pays_off_log_negativity && !pv.pays_off_fidelity) line << " (entanglement up, teleportation fidelity not)";
+  if (!pv.pays_off_log_negativity && pv.pays_off_fidelity) line << " (fidelity up, entanglement not)";
+  line << "; " << pv.heralding_rate_hz << " heralded pairs/s";
+  line.precision(2);
+  line << ", " << 100.0 * pv.false_herald_fraction << "% false heralds";
+  return line.str();
+}
+
 }  // namespace
 
 void request_stop() { stop_requested.store(true); }
@@ -72,7 +99,8 @@ output::LinkTable link_table(const scenario::Scenario& sc) {
   return t;
 }
 
-verdict::Verdict compute_verdict(const scenario::Scenario& sc, const sweep::Plan& plan, const output::RunData& data) {
+verdict::Verdict compute_verdict(const scenario::Scenario& sc, const sweep::Plan& plan, const output::RunData& data,
+                                 int threads) {
   verdict::Verdict v;
   const auto& grid = sc.link.distances_m;
   v.target_m = sc.link.target_m;
@@ -83,103 +111,111 @@ verdict::Verdict compute_verdict(const scenario::Scenario& sc, const sweep::Plan
     v.survival = last_downward_crossing([&](double d) { return bare_signed_log_negativity(sc, d); }, grid);
     v.fidelity_half = last_downward_crossing([&](double d) { return gaussian::fidelity(bare_state(sc, d)) - 0.5; }, grid);
   }
+  const std::size_t np = plan.protocols.size();
+  v.protocols.resize(np);
 
-  for (std::size_t p = 0; p < plan.protocols.size(); ++p) {
+  // 1. Every setting of the swept parameters of every protocol, evaluated at the target
+  //    distance (in parallel); each protocol keeps the setting with the largest E_N.
+  struct TargetJob {
+    std::size_t protocol;
+    std::vector<std::size_t> index;
+    steps::PointResult result;
+  };
+  std::vector<TargetJob> target_jobs;
+  for (std::size_t p = 0; p < np; ++p) {
+    const sweep::ProtocolPlan& pp = plan.protocols[p];
+    const std::size_t slice = pp.size() / pp.axes[0].values.size();
+    for (std::size_t s = 0; s < slice; ++s) target_jobs.push_back({p, pp.unflatten(s), {}});
+  }
+  std::vector<std::size_t> todo(target_jobs.size());
+  for (std::size_t j = 0; j < todo.size(); ++j) todo[j] = j;
+  sweep::dispatch(todo, threads,
+                  [&](std::size_t j) {
+                    target_jobs[j].result =
+                        steps::evaluate(sweep::resolve(sc, plan, target_jobs[j].protocol, target_jobs[j].index, v.target_m));
+                  },
+                  {}, {});
+  std::vector<std::vector<std::size_t>> best_index(np);
+  std::vector<steps::PointResult> best(np);
+  std::vector<bool> have(np, false);
+  for (const TargetJob& job : target_jobs) {
+    const std::size_t p = job.protocol;
+    const steps::PointResult& r = job.result;
+    if (!have[p] || (usable(r) && (!usable(best[p]) || r.log_negativity > best[p].log_negativity))) {
+      best[p] = r;
+      best_index[p] = job.index;
+      have[p] = true;
+    }
+  }
+
+  // 2. Crossings along distance with each protocol's best setting held fixed: grid values from
+  //    the run, refined between grid points by fresh evaluations. Three per protocol, in parallel.
+  enum Figure { en_vs_bare = 0, f_vs_bare = 1, f_vs_half = 2 };
+  std::vector<Crossing> crossings(3 * np);
+  if (grid.size() > 1) {
+    const double step = (grid.back() - grid.front()) / static_cast<double>(grid.size() - 1);
+    const double tol = 1e-4 * std::max(step, 1e-12);
+    std::vector<std::size_t> jobs(3 * np);
+    for (std::size_t j = 0; j < jobs.size(); ++j) jobs[j] = j;
+    sweep::dispatch(jobs, threads,
+                    [&](std::size_t j) {
+                      const std::size_t p = j / 3;
+                      const auto figure = static_cast<Figure>(j % 3);
+                      const sweep::ProtocolPlan& pp = plan.protocols[p];
+                      const output::ProtocolTable& table = data.protocols.at(p);
+                      auto margin = [&](const steps::PointResult& r, double d, std::size_t di, bool from_grid) {
+                        if (!usable(r)) return -1.0;
+                        switch (figure) {
+                          case en_vs_bare:
+                            return r.log_negativity - (from_grid ? data.link.log_negativity[di]
+                                                                 : gaussian::log_negativity(bare_state(sc, d)));
+                          case f_vs_bare:
+                            return r.fidelity - (from_grid ? data.link.fidelity[di] : gaussian::fidelity(bare_state(sc, d)));
+                          case f_vs_half: return r.fidelity - 0.5;
+                        }
+                        return -1.0;
+                      };
+                      std::vector<double> values;
+                      for (std::size_t di = 0; di < grid.size(); ++di) {
+                        std::vector<std::size_t> idx = best_index[p];
+                        idx[0] = di;
+                        std::size_t flat = 0;
+                        for (std::size_t a = 0; a < idx.size(); ++a) flat = flat * pp.axes[a].values.size() + idx[a];
+                        values.push_back(table.done[flat] ? margin(table.points[flat], grid[di], di, true) : -1.0);
+                      }
+                      auto fn = [&](double d) {
+                        return margin(steps::evaluate(sweep::resolve(sc, plan, p, best_index[p], d)), d, 0, false);
+                      };
+                      crossings[j] = last_downward_crossing(fn, grid, values, tol);
+                    },
+                    {}, {});
+  }
+
+  for (std::size_t p = 0; p < np; ++p) {
     const sweep::ProtocolPlan& pp = plan.protocols[p];
     const output::ProtocolTable& table = data.protocols.at(p);
-    verdict::ProtocolVerdict pv;
+    verdict::ProtocolVerdict& pv = v.protocols[p];
     pv.name = pp.name;
     for (std::size_t i = 0; i < table.points.size(); ++i)
       if (!table.done[i] || !usable(table.points[i])) ++pv.failed_points;
-
-    // Every setting of the swept parameters, evaluated at the target distance; keep the best E_N.
-    const std::size_t slice = pp.size() / pp.axes[0].values.size();
-    std::vector<std::size_t> best_index(pp.axes.size(), 0);
-    steps::PointResult best;
-    bool have_best = false;
-    for (std::size_t s = 0; s < slice; ++s) {
-      const std::vector<std::size_t> idx = pp.unflatten(s);  // distance index 0, others vary
-      const steps::PointResult r = steps::evaluate(sweep::resolve(sc, plan, p, idx, v.target_m));
-      if (!have_best || (usable(r) && (!usable(best) || r.log_negativity > best.log_negativity))) {
-        best = r;
-        best_index = idx;
-        have_best = true;
-      }
-    }
-    pv.status = best.status;
-    pv.success_probability = best.success_probability;
-    pv.log_negativity = best.log_negativity;
-    pv.fidelity = best.fidelity;
-    pv.false_herald_fraction = best.false_herald_fraction;
-    pv.truncation_error = best.truncation_error;
-    pv.cutoff = best.cutoff;
-    pv.heralding_rate_hz = sweep::trial_rate_hz(sc, plan, p, best_index) * best.success_probability;
-    for (std::size_t a = 1; a < pp.axes.size(); ++a) pv.best.emplace_back(pp.axes[a].name, pp.axes[a].values[best_index[a]]);
+    const steps::PointResult& b = best[p];
+    pv.status = b.status;
+    pv.success_probability = b.success_probability;
+    pv.log_negativity = b.log_negativity;
+    pv.fidelity = b.fidelity;
+    pv.false_herald_fraction = b.false_herald_fraction;
+    pv.truncation_error = b.truncation_error;
+    pv.cutoff = b.cutoff;
+    pv.heralding_rate_hz = usable(b) ? sweep::trial_rate_hz(sc, plan, p, best_index[p]) * b.success_probability : 0.0;
+    for (std::size_t a = 1; a < pp.axes.size(); ++a) pv.best.emplace_back(pp.axes[a].name, pp.axes[a].values[best_index[p][a]]);
     if (sc.output.heralds_wanted && pv.heralding_rate_hz > 0.0)
       pv.seconds_for_heralds = *sc.output.heralds_wanted / pv.heralding_rate_hz;
-    pv.pays_off_log_negativity = usable(best) && best.log_negativity > v.bare_log_negativity;
-    pv.pays_off_fidelity = usable(best) && best.fidelity > v.bare_fidelity;
-
-    // Crossings along distance with the best setting held fixed: grid values from the run,
-    // refined between grid points by fresh evaluations.
-    if (grid.size() > 1) {
-      std::vector<double> en_margin, f_margin, f_half;
-      for (std::size_t di = 0; di < grid.size(); ++di) {
-        std::vector<std::size_t> idx = best_index;
-        idx[0] = di;
-        std::size_t flat = 0;
-        for (std::size_t a = 0; a < idx.size(); ++a) flat = flat * pp.axes[a].values.size() + idx[a];
-        const steps::PointResult& r = table.points[flat];
-        const bool ok = table.done[flat] && usable(r);
-        en_margin.push_back(ok ? r.log_negativity - data.link.log_negativity[di] : -1.0);
-        f_margin.push_back(ok ? r.fidelity - data.link.fidelity[di] : -1.0);
-        f_half.push_back(ok ? r.fidelity - 0.5 : -1.0);
-      }
-      auto at = [&](double d) {
-        const steps::PointResult r = steps::evaluate(sweep::resolve(sc, plan, p, best_index, d));
-        return r;
-      };
-      auto en_fn = [&](double d) {
-        const auto r = at(d);
-        return usable(r) ? r.log_negativity - gaussian::log_negativity(bare_state(sc, d)) : -1.0;
-      };
-      auto f_fn = [&](double d) {
-        const auto r = at(d);
-        return usable(r) ? r.fidelity - gaussian::fidelity(bare_state(sc, d)) : -1.0;
-      };
-      auto half_fn = [&](double d) {
-        const auto r = at(d);
-        return usable(r) ? r.fidelity - 0.5 : -1.0;
-      };
-      const double tol = 1e-6 * std::max(1.0, grid.back());
-      pv.breakeven_log_negativity = last_downward_crossing(en_fn, grid, en_margin, tol);
-      pv.breakeven_fidelity = last_downward_crossing(f_fn, grid, f_margin, tol);
-      pv.fidelity_half = last_downward_crossing(half_fn, grid, f_half, tol);
-    }
-
-    std::ostringstream line;
-    line.precision(3);
-    const double target = v.target_m;
-    if (!usable(best)) {
-      line << "no verdict at " << target << " m: " << to_string(best.status);
-      if (best.status == Status::truncation_budget_missed) line << " (needs cutoff " << best.cutoff_needed << ")";
-    } else {
-      const bool is_bare = pp.axes.size() == 1 && std::abs(best.success_probability - 1.0) < 1e-12;
-      if (is_bare) {
-        line << "no heralding: this is the link itself (E_N " << best.log_negativity << ", F " << best.fidelity << ")";
-      } else {
-        line << (pv.pays_off_log_negativity ? "pays off" : "does not pay off") << " at " << target << " m: E_N "
-             << best.log_negativity << " vs " << v.bare_log_negativity << " bare, F " << best.fidelity << " vs "
-             << v.bare_fidelity << " bare";
-        if (pv.pays_off_log_negativity && !pv.pays_off_fidelity) line << " (entanglement up, teleportation fidelity not)";
-        if (!pv.pays_off_log_negativity && pv.pays_off_fidelity) line << " (fidelity up, entanglement not)";
-        line << "; " << pv.heralding_rate_hz << " heralded pairs/s";
-        line.precision(2);
-        line << ", " << 100.0 * pv.false_herald_fraction << "% false heralds";
-      }
-    }
-    pv.summary = line.str();
-    v.protocols.push_back(std::move(pv));
+    pv.pays_off_log_negativity = usable(b) && b.log_negativity > v.bare_log_negativity;
+    pv.pays_off_fidelity = usable(b) && b.fidelity > v.bare_fidelity;
+    pv.breakeven_log_negativity = crossings[3 * p + en_vs_bare];
+    pv.breakeven_fidelity = crossings[3 * p + f_vs_bare];
+    pv.fidelity_half = crossings[3 * p + f_vs_half];
+    pv.summary = summarise(pp, pv, b, v);
   }
   return v;
 }
@@ -317,7 +353,7 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
     output::write_file(partial, sc, plan, data, prov, false);
     summary.file = partial;
   } else {
-    data.verdict = compute_verdict(sc, plan, data);
+    data.verdict = compute_verdict(sc, plan, data, summary.threads);
     output::write_file(summary.file, sc, plan, data, prov, true);
     fs::remove(partial, ec);
   }
