@@ -6,6 +6,8 @@
 
 #include "cli/commands.hpp"
 #include "heraldry/crossing.hpp"
+#include "heraldry/fock.hpp"
+#include "heraldry/sweep.hpp"
 #include "heraldry/gaussian.hpp"
 #include "heraldry/link.hpp"
 #include "heraldry/scenario.hpp"
@@ -91,18 +93,50 @@ int cmd_example() {
 
 int cmd_check(const std::string& path) {
   const scenario::Scenario sc = scenario::load(path);
-  std::size_t points = 0;
+  const auto& grid = sc.link.distances_m;
   std::printf("%s: valid scenario \"%s\"\n", path.c_str(), sc.title.c_str());
-  std::printf("  distances: %zu (%.4g m to %.4g m), target %.4g m\n", sc.link.distances_m.size(),
-              sc.link.distances_m.front(), sc.link.distances_m.back(), sc.link.target_m);
-  for (const auto& p : sc.protocols) {
-    std::size_t n = sc.link.distances_m.size();
-    for (const auto& step : p.steps)
-      for (const auto& [key, param] : step.params) n *= param.values.size();
-    points += n;
-    std::printf("  protocol \"%s\": %zu steps, %zu points\n", p.name.c_str(), p.steps.size(), n);
+  std::printf("  distances: %zu (%.4g m to %.4g m), target %.4g m\n", grid.size(), grid.front(), grid.back(),
+              sc.link.target_m);
+  const sweep::Plan plan = sweep::make_plan(sc);
+  for (const auto& pp : plan.protocols) {
+    std::printf("  protocol \"%s\": %zu points", pp.name.c_str(), pp.size());
+    for (std::size_t a = 1; a < pp.axes.size(); ++a)
+      std::printf("%s %s (%zu values)", a == 1 ? "; swept:" : ",", pp.axes[a].name.c_str(), pp.axes[a].values.size());
+    std::printf("\n");
   }
-  std::printf("  total: %zu points\n", points);
+  std::printf("  total: %zu points\n", plan.total_points());
+
+  // The cutoff the bare link's state needs at each distance (Gaussian estimate; heralded
+  // states have heavier tails and need more, which the run finds itself).
+  const auto engine = sc.numerics.engine == scenario::EngineKind::dense ? fock::Engine::dense : fock::Engine::sector;
+  const double tol = sc.numerics.tolerance;
+  const double max_bytes = sc.numerics.max_memory_mb * 1024.0 * 1024.0;
+  int lo = 0, hi = 0;
+  double at = grid.front();
+  for (double d : grid) {
+    int n = 0;
+    try {
+      n = fock::auto_cutoff_gaussian(link_state(sc, link::link_budget(sc.link.model, d)), tol * tol, engine, max_bytes);
+    } catch (const fock::CutoffError& e) {
+      throw InputError(path, 0, "numerics.max_memory_mb", std::to_string(sc.numerics.max_memory_mb),
+                       "room for the states the run needs", std::string(e.what()) + " at " + std::to_string(d) + " m");
+    }
+    if (lo == 0 || n < lo) lo = n;
+    if (n > hi) {
+      hi = n;
+      at = d;
+    }
+  }
+  if (sc.numerics.cutoff > 0) {
+    std::printf("  cutoff: fixed at %d (the bare link needs %d..%d for tolerance %.3g)\n", sc.numerics.cutoff, lo, hi, tol);
+  } else {
+    std::printf("  cutoff: auto; the bare link needs %d..%d for tolerance %.3g (largest at %.4g m, %.3g MB per state);\n"
+                "          heralded states need more; the run stops at max_cutoff = %d\n",
+                lo, hi, tol, at, fock::memory_bytes_for(engine, hi) / 1048576.0, sc.numerics.max_cutoff);
+    if (hi > sc.numerics.max_cutoff)
+      std::printf("  warning: points beyond the bare link's cutoff %d > max_cutoff %d will miss the tolerance\n", hi,
+                  sc.numerics.max_cutoff);
+  }
   return 0;
 }
 

@@ -240,7 +240,7 @@ void write_file(const std::string& path, const scenario::Scenario& sc, const swe
       dataset(g, "fidelity", shape, F, "1", "Braunstein-Kimble unit-gain coherent-state teleportation fidelity");
       dataset(g, "heralding_rate_hz", shape, t.heralding_rate_hz, "Hz", "heralded pairs per second: trial rate x success probability");
       dataset(g, "false_herald_fraction", shape, fh, "1", "fraction of heralds in which a counter that fired received no photon");
-      dataset(g, "truncation_error", shape, te, "1", "probability lost to the Fock cutoff relative to the success probability");
+      dataset(g, "truncation_error", shape, te, "1", "error scale of the figures due to the Fock cutoff: sqrt(probability lost to the cutoff / success probability)");
       dataset(g, "amplifier_cut_fraction", shape, cut, "1", "input weight above the amplifier's photon-number range");
       dataset(g, "cutoff", shape, cutoff, "1", "per-mode photon-number cutoff of the computation");
       dataset(g, "status", shape, status, "1", "0 ok, 1 truncation budget missed, 2 herald below round-off, 3 not computed, 4 invalid");
