@@ -23,4 +23,10 @@ struct Crossing {
 Crossing last_downward_crossing(const std::function<double(double)>& f, std::span<const double> grid,
                                 std::span<const double> values = {}, double abs_tolerance = 1e-9);
 
+/// For a cheap f that is still > 0 at the end of the grid: continues the scan beyond it on
+/// x_k = from (1 + growth)^k up to `limit` and refines the first downward crossing found.
+/// Returns kind beyond_grid with distance = limit when f stays positive up to it.
+Crossing continue_crossing(const std::function<double(double)>& f, double from, double limit,
+                           double growth = 0.05, double abs_tolerance = 1e-9);
+
 }  // namespace heraldry

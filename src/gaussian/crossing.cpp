@@ -2,6 +2,7 @@
 
 #include <boost/math/tools/roots.hpp>
 #include <boost/math/tools/toms748_solve.hpp>
+#include <algorithm>
 #include <cstdint>
 #include <stdexcept>
 #include <vector>
@@ -30,6 +31,24 @@ Crossing last_downward_crossing(const std::function<double(double)>& f, std::spa
   auto tol = [abs_tolerance](double a, double b) { return std::abs(b - a) <= abs_tolerance; };
   auto root = boost::math::tools::toms748_solve(f, lo, hi, flo, fhi, tol, max_iter);
   return {Crossing::Kind::crossed, 0.5 * (root.first + root.second)};
+}
+
+Crossing continue_crossing(const std::function<double(double)>& f, double from, double limit, double growth,
+                           double abs_tolerance) {
+  if (!(growth > 0.0)) throw std::invalid_argument("continue_crossing: growth must be > 0");
+  double lo = std::max(from, 1e-9), flo = f(lo);
+  if (!(flo > 0.0)) return {Crossing::Kind::never_positive, lo};
+  while (lo < limit) {
+    const double hi = std::min(limit, lo * (1.0 + growth));
+    const double fhi = f(hi);
+    if (!(fhi > 0.0)) {
+      const std::vector<double> grid{lo, hi}, values{flo, fhi};
+      return last_downward_crossing(f, grid, values, abs_tolerance);
+    }
+    lo = hi;
+    flo = fhi;
+  }
+  return {Crossing::Kind::beyond_grid, limit};
 }
 
 }  // namespace heraldry

@@ -1,10 +1,3 @@
-// GCC 12 reports a false -Wrestrict inside std::string's operator+ (GCC bug 105651) once
-// InputError's message formatting is inlined into raise() below. The warning is located in the
-// standard headers, so it can only be silenced before they are included.
-#if defined(__GNUC__) && !defined(__clang__) && __GNUC__ == 12
-#pragma GCC diagnostic ignored "-Wrestrict"
-#endif
-
 #include "scenario/reader.hpp"
 
 #include <algorithm>

@@ -1,9 +1,4 @@
 // Photon-counter response models (PHYSICS.md §4.2) and the trial-rate bound (§13.3).
-// GCC 12 reports a false -Wrestrict inside the inlined std::string concatenations that build
-// InputError's message (GCC bug 105651); the pragma must precede the standard headers.
-#if defined(__GNUC__) && !defined(__clang__) && __GNUC__ == 12
-#pragma GCC diagnostic ignored "-Wrestrict"
-#endif
 #include <algorithm>
 #include <cmath>
 #include <limits>

@@ -7,6 +7,7 @@
 #include <cstdlib>
 #include <ctime>
 #include <filesystem>
+#include <functional>
 #include <limits>
 #include <sstream>
 
@@ -108,8 +109,13 @@ verdict::Verdict compute_verdict(const scenario::Scenario& sc, const sweep::Plan
   v.bare_log_negativity = gaussian::log_negativity(target_state);
   v.bare_fidelity = gaussian::fidelity(target_state);
   if (grid.size() > 1) {
-    v.survival = last_downward_crossing([&](double d) { return bare_signed_log_negativity(sc, d); }, grid);
-    v.fidelity_half = last_downward_crossing([&](double d) { return gaussian::fidelity(bare_state(sc, d)) - 0.5; }, grid);
+    // The bare link is Gaussian and instant: crossings beyond the grid are found by scanning on.
+    const std::function<double(double)> en = [&](double d) { return bare_signed_log_negativity(sc, d); };
+    const std::function<double(double)> fh = [&](double d) { return gaussian::fidelity(bare_state(sc, d)) - 0.5; };
+    v.survival = last_downward_crossing(en, grid);
+    if (v.survival.kind == Crossing::Kind::beyond_grid) v.survival = continue_crossing(en, grid.back(), 1e7);
+    v.fidelity_half = last_downward_crossing(fh, grid);
+    if (v.fidelity_half.kind == Crossing::Kind::beyond_grid) v.fidelity_half = continue_crossing(fh, grid.back(), 1e7);
   }
   const std::size_t np = plan.protocols.size();
   v.protocols.resize(np);
