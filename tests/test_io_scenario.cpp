@@ -67,13 +67,13 @@ TEST_CASE("the built-in demo parses and is converted to SI units") {
   CHECK(s.link.model.frequency_hz == s.source.frequency_hz);
   CHECK(s.link.model.medium == link::Medium::air);
   CHECK(s.link.model.geometry == link::Geometry::one_way);
-  // { from = 0.1, to = 8.0, points = 80 }: 80 equally spaced values, both ends included (closed form).
-  REQUIRE(s.link.distances_m.size() == 80);
-  CHECK(s.link.distances_m.front() == 0.1);
-  CHECK(s.link.distances_m.back() == 8.0);
-  for (std::size_t i = 0; i < 80; ++i)
-    CHECK(s.link.distances_m[i] == rel(0.1 + 7.9 * static_cast<double>(i) / 79.0, 1e-14));
-  CHECK(s.link.target_m == 2.0);
+  // { from = 0.25, to = 5.25, points = 21 }: 21 equally spaced values, both ends included (closed form).
+  REQUIRE(s.link.distances_m.size() == 21);
+  CHECK(s.link.distances_m.front() == 0.25);
+  CHECK(s.link.distances_m.back() == 5.25);
+  for (std::size_t i = 0; i < 21; ++i)
+    CHECK(s.link.distances_m[i] == rel(0.25 + 5.0 * static_cast<double>(i) / 20.0, 1e-14));
+  CHECK(s.link.target_m == 4.6);
   REQUIRE(s.link.model.antenna.has_value());
   CHECK(s.link.model.antenna->diameter_m == 1.2);
   CHECK(s.link.model.antenna->interface_temperature_k == 0.05);
@@ -94,7 +94,7 @@ TEST_CASE("the built-in demo parses and is converted to SI units") {
   // 1 - exp(-8.5e-5) = 8.49963876...e-5 (closed form).
   CHECK(lab->dark_per_gate.first() == rel(8.49963876023520e-5, 1e-12));
 
-  REQUIRE(s.protocols.size() == 2);
+  REQUIRE(s.protocols.size() == 4);
   CHECK(s.protocols[0].name == "bare");
   REQUIRE(s.protocols[0].steps.size() == 1);
   CHECK(s.protocols[0].steps[0].kind == StepKind::link);
@@ -106,13 +106,18 @@ TEST_CASE("the built-in demo parses and is converted to SI units") {
   CHECK(both.steps[1].counter == "lab");
   CHECK(both.steps[1].counts == 1);
   CHECK(both.steps[1].params.at("transmissivity").values == std::vector<double>{0.95});
+  // { from = 0.86, to = 0.98, points = 5 }: a swept tap, 0.03 apart (closed form).
+  const auto& swept = both.steps[2].params.at("transmissivity").values;
+  REQUIRE(swept.size() == 5);
+  for (std::size_t i = 0; i < 5; ++i) CHECK(swept[i] == rel(0.86 + 0.03 * static_cast<double>(i), 1e-14));
   CHECK(both.steps[1].line > both.steps[0].line);
 
   CHECK(s.numerics.engine == EngineKind::sector);
   CHECK(s.numerics.cutoff == 0);
   CHECK(s.numerics.tolerance == 1e-10);
   CHECK(s.output.file == "data_out/demo.h5");
-  CHECK_FALSE(s.output.heralds_wanted.has_value());
+  REQUIRE(s.output.heralds_wanted.has_value());
+  CHECK(*s.output.heralds_wanted == 10000.0);
 }
 
 TEST_CASE("every shipped scenario in protocols/ parses with exactly one link step per protocol") {
