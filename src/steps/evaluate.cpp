@@ -152,6 +152,22 @@ public:
         fits = false;
       }
       const int limit = std::min(spec_.max_cutoff, largest_fitting_cutoff(engine, max_bytes));
+      // A heralded state has ledger / P >> the conversion deficit when P is small. A cheap pilot
+      // run at half the cutoff (1/11 of the cost) estimates P; the conversion deficit that meets
+      // the tolerance on it, tol^2 P / 2, then gives the cutoff directly instead of raising it
+      // round by round. Steps that push photons above the cutoff are caught by the loop below.
+      if (fits && first_ < spec_.steps.size() && cutoff <= limit) {
+        const int pilot = std::max(4, cutoff / 2);
+        const Run r = run(pilot, Weighting::full);
+        if (r.probability >= smallest_probability && r.probability < 1.0 - 1e-12 && std::isfinite(r.probability)) {
+          try {
+            cutoff = std::max(cutoff, fock::auto_cutoff_gaussian(form_, 0.5 * tol * tol * r.probability, engine, max_bytes));
+          } catch (const fock::CutoffError& e) {
+            cutoff = e.needed_cutoff();
+            fits = false;
+          }
+        }
+      }
       int prev_cutoff = -1;
       double prev_error = 0.0;
       for (int round = 0; round < max_cutoff_rounds; ++round) {

@@ -30,8 +30,12 @@ void dispatch(std::span<const std::size_t> todo, int threads,
               const std::function<void(std::size_t job)>& evaluate, const std::function<bool()>& stop,
               const std::function<void(std::size_t done)>& after_chunk) {
   threads = std::max(1, threads);
-  // Chunks of a few points per thread keep checkpoints frequent and the tail short.
-  const std::size_t chunk = static_cast<std::size_t>(threads) * 8;
+  // Up to 16 points per thread and chunk (at least 8 chunks in all): checkpoints and stop
+  // requests are honoured often, and barrier waits stay rare (callers order the jobs by
+  // decreasing cost, so a chunk holds points of similar cost).
+  const std::size_t per_thread =
+      std::clamp<std::size_t>(todo.size() / (static_cast<std::size_t>(threads) * 8), 1, 16);
+  const std::size_t chunk = static_cast<std::size_t>(threads) * per_thread;
   std::size_t done = 0;
   while (done < todo.size()) {
     if (stop && stop()) return;
