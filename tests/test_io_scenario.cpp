@@ -67,15 +67,15 @@ TEST_CASE("the built-in demo parses and is converted to SI units") {
   CHECK(s.link.model.frequency_hz == s.source.frequency_hz);
   CHECK(s.link.model.medium == link::Medium::air);
   CHECK(s.link.model.geometry == link::Geometry::one_way);
-  // { from = 0.25, to = 5.25, points = 21 }: 21 equally spaced values, both ends included (closed form).
-  REQUIRE(s.link.distances_m.size() == 21);
-  CHECK(s.link.distances_m.front() == 0.25);
-  CHECK(s.link.distances_m.back() == 5.25);
-  for (std::size_t i = 0; i < 21; ++i)
-    CHECK(s.link.distances_m[i] == rel(0.25 + 5.0 * static_cast<double>(i) / 20.0, 1e-14));
-  CHECK(s.link.target_m == 4.6);
+  // { from = 2.5, to = 72.5, points = 29 }: 29 equally spaced values, both ends included (closed form).
+  REQUIRE(s.link.distances_m.size() == 29);
+  CHECK(s.link.distances_m.front() == 2.5);
+  CHECK(s.link.distances_m.back() == 72.5);
+  for (std::size_t i = 0; i < 29; ++i)
+    CHECK(s.link.distances_m[i] == rel(2.5 + 2.5 * static_cast<double>(i), 1e-14));
+  CHECK(s.link.target_m == 50.0);
   REQUIRE(s.link.model.antenna.has_value());
-  CHECK(s.link.model.antenna->diameter_m == 1.2);
+  CHECK(s.link.model.antenna->diameter_m == 4.5);
   CHECK(s.link.model.antenna->interface_temperature_k == 0.05);
   // t/degC = T/K - 273.15 (SI Brochure, 9th ed., 2019, Sec. 2.3.1): 20 degC = 293.15 K.
   CHECK(s.link.model.air.temperature_k == rel(293.15, 1e-15));

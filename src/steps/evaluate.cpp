@@ -234,7 +234,9 @@ private:
     r.amplifier_cut_fraction = run.cut_fraction;
     const double p = run.probability;
     if (!(p >= smallest_probability) || !(p > run.ledger)) {
-      r.status = Status::herald_below_roundoff;
+      // A herald too rare for double precision, or a state so far beyond the cutoff that the
+      // lost weight exceeds what is kept (a link whose bath swamps the mode): no figures.
+      r.status = p >= smallest_probability ? Status::truncation_budget_missed : Status::herald_below_roundoff;
       r.truncation_error = p > 0.0 ? run.error() : 0.0;
       if (!std::isfinite(r.truncation_error)) r.truncation_error = 0.0;
       r.success_probability = std::max(0.0, p);
