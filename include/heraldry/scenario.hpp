@@ -10,6 +10,7 @@
 
 #include "heraldry/common.hpp"
 #include "heraldry/link.hpp"
+#include "heraldry/steps.hpp"
 
 namespace heraldry::scenario {
 
@@ -33,7 +34,8 @@ struct Link {
   double target_m = 0.0;                // the distance the verdict talks about
 };
 
-enum class CounterKind { threshold, resolving };
+// The kinds are the physics kernel's own (one list, not a parallel one to keep in step).
+using CounterKind = steps::CounterKind;
 
 struct Counter {
   std::string name;
@@ -47,8 +49,8 @@ struct Counter {
   double reset_s = 0.0;                 // dead time after a gate
 };
 
-enum class StepKind { link, tap, add, amplify, scissors, loss };
-const char* to_string(StepKind k);
+using StepKind = steps::StepKind;
+using steps::to_string;
 
 /// One step of a protocol. Parameters are keyed by their scenario names (e.g. "transmissivity",
 /// "gain", "squeezing", "photon_source_efficiency", "temperature_k") in SI units.

@@ -22,17 +22,6 @@ using detail::Bounds;
 using detail::Document;
 using detail::Table;
 
-const char* to_string(StepKind k) {
-  switch (k) {
-    case StepKind::link: return "link";
-    case StepKind::tap: return "tap";
-    case StepKind::add: return "add";
-    case StepKind::amplify: return "amplify";
-    case StepKind::scissors: return "scissors";
-    case StepKind::loss: return "loss";
-  }
-  return "unknown";
-}
 
 const Counter* Scenario::find_counter(std::string_view name) const {
   for (const auto& c : counters)

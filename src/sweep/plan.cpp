@@ -22,18 +22,6 @@ bool protocol_uses_counter(const scenario::Protocol& p, const std::string& name)
   return std::any_of(p.steps.begin(), p.steps.end(), [&](const scenario::Step& s) { return s.counter == name; });
 }
 
-steps::StepKind kind_of(scenario::StepKind k) {
-  switch (k) {
-    case scenario::StepKind::link: return steps::StepKind::link;
-    case scenario::StepKind::tap: return steps::StepKind::tap;
-    case scenario::StepKind::add: return steps::StepKind::add;
-    case scenario::StepKind::amplify: return steps::StepKind::amplify;
-    case scenario::StepKind::scissors: return steps::StepKind::scissors;
-    case scenario::StepKind::loss: return steps::StepKind::loss;
-  }
-  throw std::logic_error("unknown step kind");
-}
-
 }  // namespace
 
 std::vector<std::size_t> ProtocolPlan::shape() const {
@@ -127,7 +115,7 @@ steps::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
   for (std::size_t s = 0; s < proto.steps.size(); ++s) {
     const scenario::Step& step = proto.steps[s];
     steps::StepSpec out;
-    out.kind = kind_of(step.kind);
+    out.kind = step.kind;
     out.mode = step.mode;
     out.counts = step.counts;
     out.max_photons = step.max_photons;
@@ -149,8 +137,7 @@ steps::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
       const std::size_t ci = static_cast<std::size_t>(it - sc.counters.begin());
       if (counter_slot[ci] < 0) {
         steps::CounterModel m;
-        m.kind = it->kind == scenario::CounterKind::threshold ? steps::CounterKind::threshold
-                                                              : steps::CounterKind::resolving;
+        m.kind = it->kind;
         m.efficiency = value_at(pp, index, -1, static_cast<int>(ci), "efficiency", it->efficiency);
         m.dark = value_at(pp, index, -1, static_cast<int>(ci), "dark_per_gate", it->dark_per_gate);
         m.gate_s = it->gate_s;
