@@ -1,6 +1,7 @@
 // The command line as a user runs it: exit codes, the link table, probe's JSON.
 #include <doctest/doctest.h>
 
+#include <H5Cpp.h>
 #include <sys/wait.h>
 #include <unistd.h>
 
@@ -92,6 +93,40 @@ TEST_CASE("heraldry probe --json prints one object with every protocol's figures
   const double input_en = json_value(o.output, "log_negativity");
   const double bare_en = json_value(o.output, "log_negativity", o.output.find("\"name\": \"bare\""));
   CHECK(bare_en == doctest::Approx(input_en).epsilon(1e-8));
+}
+
+TEST_CASE("the result file holds the figures that probe prints at the same distance") {
+  // A cold line, three distances, a bare link and a one-sided tap (tolerance 1e-8).
+  const fs::path dir = fs::temp_directory_path() / ("heraldry_cli_roundtrip_" + std::to_string(::getpid()));
+  fs::remove_all(dir);
+  fs::create_directories(dir);
+  const fs::path scenario = dir / "line.toml";
+  std::ofstream(scenario) << "title = \"round trip\"\n[source]\nfrequency_ghz = 6\nsqueezing_db = 4\nbandwidth_mhz = 1\n"
+                             "[link]\nmedium = \"line\"\ndistance_m = [10, 40, 80]\n[link.line]\nloss_db_per_m = 0.02\n"
+                             "temperature_k = 1.0\n[counters.c]\nkind = \"threshold\"\nefficiency = 0.7\n"
+                             "dark_per_gate = 1e-3\n[[protocol]]\nname = \"bare\"\nsteps = [\"link\"]\n"
+                             "[[protocol]]\nname = \"tap b\"\nsteps = [\"link\", { tap = \"b\", transmissivity = 0.9, "
+                             "counter = \"c\" }]\n[numerics]\ntolerance = 1e-8\n";
+  const fs::path result = dir / "r.h5";
+  const Outcome run = run_tool("run \"" + scenario.string() + "\" -o \"" + result.string() + "\" --threads 1");
+  REQUIRE(run.code == 0);
+  const Outcome probe = run_tool("probe \"" + scenario.string() + "\" --at 40 --json");
+  REQUIRE(probe.code == 0);
+  H5::H5File f(result.string(), H5F_ACC_RDONLY);
+  for (const char* name : {"bare", "tap b"}) {
+    const std::size_t at = probe.output.find(std::string("\"name\": \"") + name + "\"");
+    REQUIRE(at != std::string::npos);
+    for (const char* key : {"success_probability", "log_negativity", "negativity", "fidelity", "false_herald_fraction"}) {
+      H5::DataSet ds = f.openDataSet(std::string("/protocols/") + name + "/" + key);
+      std::vector<double> v(3);
+      ds.read(v.data(), H5::PredType::NATIVE_DOUBLE);
+      CAPTURE(name);
+      CAPTURE(key);
+      // probe prints 17 significant digits: the same double (index 1 is the 40 m point).
+      CHECK(json_value(probe.output, key, at) == v[1]);
+    }
+  }
+  fs::remove_all(dir);
 }
 
 TEST_CASE("a missing scenario file is a clear input error with exit code 2") {
