@@ -67,12 +67,12 @@ TEST_CASE("the built-in demo parses and is converted to SI units") {
   CHECK(s.link.model.frequency_hz == s.source.frequency_hz);
   CHECK(s.link.model.medium == link::Medium::air);
   CHECK(s.link.model.geometry == link::Geometry::one_way);
-  // { from = 2.5, to = 72.5, points = 29 }: 29 equally spaced values, both ends included (closed form).
-  REQUIRE(s.link.distances_m.size() == 29);
-  CHECK(s.link.distances_m.front() == 2.5);
-  CHECK(s.link.distances_m.back() == 72.5);
-  for (std::size_t i = 0; i < 29; ++i)
-    CHECK(s.link.distances_m[i] == rel(2.5 + 2.5 * static_cast<double>(i), 1e-14));
+  // { from = 0, to = 72, points = 25 }: 25 equally spaced values, both ends included (closed form).
+  REQUIRE(s.link.distances_m.size() == 25);
+  CHECK(s.link.distances_m.front() == 0.0);
+  CHECK(s.link.distances_m.back() == 72.0);
+  for (std::size_t i = 1; i < 25; ++i)
+    CHECK(s.link.distances_m[i] == rel(3.0 * static_cast<double>(i), 1e-14));
   CHECK(s.link.target_m == 50.0);
   REQUIRE(s.link.model.antenna.has_value());
   CHECK(s.link.model.antenna->diameter_m == 4.5);
