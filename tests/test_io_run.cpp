@@ -255,3 +255,37 @@ TEST_CASE("the verdict refines the fidelity-1/2 distance between grid points to 
   CHECK(s.data.verdict->fidelity_half.distance == doctest::Approx(expected).epsilon(1e-8));
   fs::remove_all(dir);
 }
+
+TEST_CASE("the midpoint relay baseline is Gaussian swapping of two pairs over half the distance") {
+  // PHYSICS.md §9 (derived; van Loock & Braunstein, PRA 61, 010302(R) (2000)): an ideal CV Bell
+  // measurement on B1, B2 leaves (A1, A2) in standard form with a' = a - c^2/(2b), c' = c^2/(2b)
+  // for identical pairs (a, b, c). Here each pair is the TMST through a cold line of length d/2.
+  const scenario::Scenario sc = scenario::parse(small_scenario, "small.toml");
+  const double d = 60.0;
+  const double tau = std::pow(10.0, -0.01 * (d / 2) / 10.0);  // 0.01 dB/m
+  const double n_line = link::planck_occupation(5e9, 0.5);
+  const double r = squeezing_parameter_from_db(5.0), k = 2 * 0.01 + 1;
+  const double a = k * std::cosh(2 * r), c0 = k * std::sinh(2 * r);
+  const double b = tau * a + (1 - tau) * (2 * n_line + 1), c = std::sqrt(tau) * c0;
+  const gaussian::StandardForm relay = run::relay_state(sc, d);
+  CHECK(relay.a == doctest::Approx(a - c * c / (2 * b)).epsilon(1e-12));
+  CHECK(relay.b == doctest::Approx(a - c * c / (2 * b)).epsilon(1e-12));
+  CHECK(relay.c == doctest::Approx(c * c / (2 * b)).epsilon(1e-12));
+  // Identical TMSVs without loss: tanh r' = tanh^2 r (PHYSICS.md §9).
+  std::string lossless = small_scenario;
+  lossless.replace(lossless.find("loss_db_per_m = 0.01"), 20, "loss_db_per_m = 0.00");
+  lossless.replace(lossless.find("thermal_photons = 0.01"), 22, "thermal_photons = 0.00");
+  const gaussian::StandardForm ideal = run::relay_state(scenario::parse(lossless, "lossless.toml"), d);
+  CHECK(ideal.a == doctest::Approx(std::cosh(2 * std::atanh(std::pow(std::tanh(r), 2)))).epsilon(1e-12));
+  // The run stores it beside the bare link.
+  const fs::path dir = scratch("relay");
+  run::Options opt;
+  opt.output = (dir / "relay.h5").string();
+  opt.threads = 2;
+  const run::Summary s = run::execute(sc, opt);
+  fs::remove_all(dir);
+  REQUIRE(s.data.link.relay_log_negativity.size() == sc.link.distances_m.size());
+  CHECK(s.data.link.relay_log_negativity[3] ==
+        doctest::Approx(gaussian::log_negativity(run::relay_state(sc, sc.link.distances_m[3]))).epsilon(1e-14));
+  REQUIRE(s.data.verdict->relay_log_negativity.has_value());
+}

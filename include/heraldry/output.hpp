@@ -20,6 +20,9 @@ namespace heraldry::output {
 struct LinkTable {
   std::vector<double> transmissivity_a, transmissivity_b, bath_photons_a, bath_photons_b;
   std::vector<double> negativity, log_negativity, fidelity, plob_ebits, rci_ebits;
+  /// Baseline: a relay station at the midpoint (Gaussian entanglement swapping of two pairs,
+  /// each sending one mode over half the distance); empty for measured [link.direct] channels.
+  std::vector<double> relay_log_negativity, relay_fidelity;
 };
 
 struct ProtocolTable {

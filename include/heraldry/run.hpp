@@ -6,6 +6,7 @@
 #include <functional>
 #include <string>
 
+#include "heraldry/gaussian.hpp"
 #include "heraldry/output.hpp"
 #include "heraldry/scenario.hpp"
 #include "heraldry/sweep.hpp"
@@ -38,6 +39,12 @@ struct Summary {
 /// Asks a running `execute` to stop at the next chunk boundary and keep its checkpoint
 /// (async-signal-safe: sets an atomic flag).
 void request_stop();
+
+/// The midpoint-relay baseline at distance d: two copies of the source, each sending mode b over
+/// d/2 (the one-way link model at half the distance) to a station that makes an ideal CV Bell
+/// measurement (Gaussian entanglement swapping, PHYSICS.md §9; van Loock & Braunstein, PRA 61,
+/// 010302(R) (2000)); the conditional state of the two a modes. Needs a modelled link (not direct).
+gaussian::StandardForm relay_state(const scenario::Scenario& sc, double distance_m);
 
 /// The bare link (Gaussian layer) on the distance grid.
 output::LinkTable link_table(const scenario::Scenario& sc);

@@ -40,6 +40,9 @@ struct Verdict {
   double target_m = 0.0;
   double bare_log_negativity = 0.0;           // Gaussian layer, at the target
   double bare_fidelity = 0.0;
+  /// The midpoint-relay baseline at the target (Gaussian swapping; absent for direct channels).
+  std::optional<double> relay_log_negativity;
+  std::optional<double> relay_fidelity;
   Crossing survival;                          // bare link: E_N > 0 up to
   Crossing fidelity_half;                     // bare link: F > 1/2 up to
   std::vector<ProtocolVerdict> protocols;

@@ -93,6 +93,10 @@ void write_verdict(H5::H5File& file, const verdict::Verdict& v) {
   attr(g, "target_m", v.target_m);
   attr(g, "bare_log_negativity", v.bare_log_negativity);
   attr(g, "bare_fidelity", v.bare_fidelity);
+  if (v.relay_log_negativity) {
+    attr(g, "relay_log_negativity", *v.relay_log_negativity);
+    attr(g, "relay_fidelity", *v.relay_fidelity);
+  }
   crossing_attrs(g, "bare_survival_distance", v.survival);
   crossing_attrs(g, "bare_fidelity_half_distance", v.fidelity_half);
   for (const auto& p : v.protocols) {
@@ -204,6 +208,12 @@ void write_file(const std::string& path, const scenario::Scenario& sc, const swe
     dataset(gg, "fidelity", dd, L.fidelity, "1", "Braunstein-Kimble unit-gain coherent-state teleportation fidelity");
     dataset(gg, "plob_ebits", dd, L.plob_ebits, "ebit/use", "PLOB upper bound on two-way assisted entanglement distribution");
     dataset(gg, "rci_ebits", dd, L.rci_ebits, "ebit/use", "reverse coherent information lower bound");
+    if (!L.relay_log_negativity.empty()) {
+      dataset(gg, "relay_log_negativity", dd, L.relay_log_negativity, "ebit",
+              "log-negativity with a relay at the midpoint (Gaussian entanglement swapping of two pairs)");
+      dataset(gg, "relay_fidelity", dd, L.relay_fidelity, "1",
+              "teleportation fidelity with a relay at the midpoint (Gaussian entanglement swapping)");
+    }
 
     H5::Group pgs = file.createGroup("/protocols");
     for (std::size_t p = 0; p < plan.protocols.size(); ++p) {
