@@ -8,6 +8,8 @@ Writes, next to the file unless --out names a folder:
   <stem>_fidelity.png           teleportation fidelity versus distance, classical limit 1/2
   <stem>_rates.png              success probability and heralding rate versus distance
   <stem>_map_<protocol>.png     E_N gain over the bare link, distance x first swept axis
+  <stem>_trade_<protocol>.png   at the target distance, for two swept axes (e.g. a counter's
+                                efficiency and dark rate): E_N gain and heralding rate maps
 and prints the path of each PNG. Exit code 2 for a missing file or a file without the layout.
 
 Conventions: a point whose status is not 0 (or that is not done) failed and is masked, never
@@ -356,6 +358,65 @@ def plot_map(result, proto, path):
     return save(fig, path, ["other swept axes at " + others if others else None, failed if proto["failed"] else None])
 
 
+def read_trade(path, name):
+    """The verdict's target slice of a protocol with exactly two swept axes, or None."""
+    with h5py.File(path, "r") as f:
+        group = f.get(f"verdict/{name}/target")
+        if group is None:
+            return None
+        dims = [d for d in attr_text(group, "dims").split(",") if d]
+        if len(dims) != 2:
+            return None
+        axes = []
+        for d in dims:
+            ds = need(f, f"protocols/{name}/axes/{d}")
+            axes.append(dict(name=d, values=ds[...].astype(float), units=attr_text(ds, "units", "1"),
+                             description=attr_text(ds, "description", d)))
+        bad = need(group, "status")[...] != 0
+        bare = float(f["verdict"].attrs["bare_log_negativity"])
+        gain = np.ma.masked_array(need(group, "log_negativity")[...] - bare, mask=bad)
+        rate = need(group, "heralding_rate_hz")[...].astype(float)
+        rate = np.ma.masked_array(rate, mask=bad | ~(rate > 0.0))
+        return dict(axes=axes, gain=gain, rate=rate, distance=float(group.attrs["distance_m"]))
+
+
+def cell_edges(values):
+    """Edges for pcolormesh: geometric on an axis spanning two decades or more, else linear."""
+    if values.size > 1 and np.all(values > 0) and values.max() / values.min() >= 100.0:
+        return np.exp(edges(np.log(values))), True
+    return edges(values), False
+
+
+def plot_trade(result, proto, trade, path):
+    """Detector trade map at the target: E_N gain and heralding rate over two swept axes."""
+    (ya, xa), gain, rate = trade["axes"], trade["gain"], trade["rate"]
+    xe, xlog = cell_edges(xa["values"])
+    ye, ylog = cell_edges(ya["values"])
+    fig, axes = plt.subplots(1, 2, figsize=FIGSIZE, dpi=DPI, sharey=True)
+    fig.suptitle(wrap(result["title"], 80) + "\n" +
+                 wrap(f"{proto['name']} at {trade['distance']:g} m: where the stage pays off", 80), fontsize=10)
+    lo, hi = -largest(-gain, 1.0), largest(gain, 1.0)
+    norm = colors.TwoSlopeNorm(0.0, lo, hi) if lo < 0.0 < hi else colors.CenteredNorm(0.0)
+    panels = [(axes[0], gain, "RdBu", norm, label("gain $E_N - E_{N,\\mathrm{bare}}$", "ebit")),
+              (axes[1], rate, "viridis", colors.LogNorm() if np.ma.count(rate) else None,
+               label("heralding rate", "Hz"))]
+    for ax, values, cmap, nrm, text in panels:
+        ax.set_facecolor("0.8")
+        mesh = ax.pcolormesh(xe, ye, values, cmap=cmap, norm=nrm)
+        fig.colorbar(mesh, ax=ax, label=text, pad=0.02)
+        if lo < 0.0 < hi and min(gain.shape) > 1:
+            ax.contour(xa["values"], ya["values"], gain, levels=[0.0], colors="black", linewidths=1.8)
+        ax.set_xscale("log" if xlog else "linear")
+        ax.set_yscale("log" if ylog else "linear")
+        ax.set_xlabel(label(xa["description"], xa["units"], 30), fontsize=9)
+    axes[0].set_ylabel(label(ya["description"], ya["units"], 40), fontsize=9)
+    axes[0].set_title("$E_N$ gain over the bare link", fontsize=9)
+    axes[1].set_title("heralded pairs per second", fontsize=9)
+    note = "black line: break-even (gain 0); the stage pays off on the blue side" if lo < 0.0 < hi else \
+        "no break-even on this grid (gain " + (">" if lo >= 0.0 else "<") + " 0 everywhere)"
+    return save(fig, path, [note, "grey cells: failed points" if np.ma.count_masked(gain) else None])
+
+
 def plot_all(path, out):
     result = read_result(path)
     os.makedirs(out, exist_ok=True)
@@ -372,6 +433,9 @@ def plot_all(path, out):
                 name += "-x"
             slugs.add(name)
             written.append(plot_map(result, proto, f"{stem}_map_{name}.png"))
+            trade = read_trade(path, proto["name"])
+            if trade is not None:
+                written.append(plot_trade(result, proto, trade, f"{stem}_trade_{name}.png"))
     return written
 
 

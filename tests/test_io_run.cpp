@@ -289,3 +289,72 @@ TEST_CASE("the midpoint relay baseline is Gaussian swapping of two pairs over ha
         doctest::Approx(gaussian::log_negativity(run::relay_state(sc, sc.link.distances_m[3]))).epsilon(1e-14));
   REQUIRE(s.data.verdict->relay_log_negativity.has_value());
 }
+
+TEST_CASE("the detector trade map's break-even lies between point evaluations of opposite sign") {
+  // Common practice for contour maps: the zero of the E_N gain interpolated between two grid cells
+  // must separate fresh evaluations taken just inside each side (the gain falls monotonically with
+  // the dark rate: dark counts herald unsubtracted states, PHYSICS.md §10 pitfall 7).
+  const char* text = R"(
+title = "trade map test"
+[source]
+frequency_ghz = 5.0
+squeezing_db = 5.0
+bandwidth_mhz = 1.0
+[link]
+medium = "line"
+distance_m = [40]
+[link.line]
+loss_db_per_m = 0.01
+temperature_k = 0.5
+[counters.det]
+kind = "threshold"
+efficiency = [0.3, 0.8]
+dark_rate_hz = [1e2, 1e3, 1e4, 1e5]
+gate_ns = 1000
+[[protocol]]
+name = "two taps"
+steps = ["link", { tap = "a", transmissivity = 0.9, counter = "det" }, { tap = "b", transmissivity = 0.9, counter = "det" }]
+[numerics]
+tolerance = 1e-7
+)";
+  const scenario::Scenario sc = scenario::parse(text, "trade.toml");
+  const fs::path dir = scratch("trade");
+  run::Options opt;
+  opt.output = (dir / "t.h5").string();
+  opt.threads = 2;
+  const run::Summary s = run::execute(sc, opt);
+  fs::remove_all(dir);
+  const verdict::ProtocolVerdict& pv = s.data.verdict->protocols.at(0);
+  REQUIRE(pv.slice_shape == std::vector<std::size_t>{2, 4});
+  const sweep::Plan plan = sweep::make_plan(sc);
+  const auto& rates = plan.protocols[0].axes[2].values;
+  const double bare = s.data.verdict->bare_log_negativity;
+  std::size_t crossings = 0;
+  for (std::size_t row = 0; row < 2; ++row) {
+    for (std::size_t j = 0; j + 1 < 4; ++j) {
+      const double g0 = pv.slice_log_negativity[row * 4 + j] - bare, g1 = pv.slice_log_negativity[row * 4 + j + 1] - bare;
+      if (!(g0 > 0.0 && g1 <= 0.0)) continue;
+      ++crossings;
+      // The map's contour passes between these two cells: the true zero of the gain, found by
+      // root refinement on fresh evaluations, must lie between them, with the gain positive just
+      // below it and negative just above it.
+      auto gain_at = [&](double rate) {
+        sweep::Plan pinned = plan;
+        pinned.protocols[0].axes[2].values = {rate};
+        const std::vector<std::size_t> idx{0, row, 0};
+        const steps::PointResult r = steps::evaluate(sweep::resolve(sc, pinned, 0, idx, 40.0));
+        REQUIRE(r.status == Status::ok);
+        return r.log_negativity - bare;
+      };
+      const std::vector<double> cell{rates[j], rates[j + 1]}, values{g0, g1};
+      const Crossing zero = last_downward_crossing(gain_at, cell, values, 1e-6 * rates[j + 1]);
+      REQUIRE(zero.kind == Crossing::Kind::crossed);
+      CAPTURE(zero.distance);
+      CHECK(zero.distance > rates[j]);
+      CHECK(zero.distance < rates[j + 1]);
+      CHECK(gain_at(zero.distance * 0.99) > 0.0);
+      CHECK(gain_at(zero.distance * 1.01) < 0.0);
+    }
+  }
+  CHECK(crossings >= 1);
+}

@@ -31,6 +31,14 @@ struct ProtocolVerdict {
   std::vector<std::pair<std::string, double>> best;
   std::optional<double> seconds_for_heralds;  // [output] heralds_wanted / heralding rate
   std::size_t failed_points = 0;              // grid points whose status is not ok
+  /// Every setting of the swept parameters evaluated at the target (row-major over the swept
+  /// axes, in the order of the protocol's axes after distance): the detector trade map when the
+  /// counter's efficiency and dark rate are swept. Empty without swept parameters.
+  std::vector<std::string> slice_axes;
+  std::vector<std::size_t> slice_shape;
+  std::vector<double> slice_log_negativity, slice_fidelity, slice_success_probability, slice_heralding_rate_hz,
+      slice_false_herald_fraction;
+  std::vector<int> slice_status;
   bool pays_off_log_negativity = false;
   bool pays_off_fidelity = false;
   std::string summary;                        // one line in words

@@ -119,6 +119,21 @@ void write_verdict(H5::H5File& file, const verdict::Verdict& v) {
     attr(pg, "pays_off_log_negativity", static_cast<long long>(p.pays_off_log_negativity));
     attr(pg, "pays_off_fidelity", static_cast<long long>(p.pays_off_fidelity));
     attr(pg, "summary", p.summary);
+    if (!p.slice_shape.empty()) {
+      // The target slice: every swept setting at the target distance (the detector trade map).
+      H5::Group tg = pg.createGroup("target");
+      std::string dims;
+      for (const auto& a : p.slice_axes) dims += (dims.empty() ? "" : ",") + a;
+      attr(tg, "dims", dims);
+      attr(tg, "distance_m", v.target_m);
+      std::vector<hsize_t> shape(p.slice_shape.begin(), p.slice_shape.end());
+      dataset(tg, "log_negativity", shape, p.slice_log_negativity, "ebit", "log-negativity at the target distance");
+      dataset(tg, "fidelity", shape, p.slice_fidelity, "1", "teleportation fidelity at the target distance");
+      dataset(tg, "success_probability", shape, p.slice_success_probability, "1", "success probability at the target distance");
+      dataset(tg, "heralding_rate_hz", shape, p.slice_heralding_rate_hz, "Hz", "heralded pairs per second at the target distance");
+      dataset(tg, "false_herald_fraction", shape, p.slice_false_herald_fraction, "1", "false-herald fraction at the target distance");
+      dataset(tg, "status", shape, p.slice_status, "1", "0 ok, else the point failed (see /protocols status codes)");
+    }
   }
 }
 

@@ -71,7 +71,11 @@ Plan make_plan(const scenario::Scenario& sc) {
       if (counter.efficiency.swept())
         pp.axes.push_back({"counters." + counter.name + ".efficiency", "1", "counter efficiency",
                            counter.efficiency.values, -1, static_cast<int>(c), "efficiency"});
-      if (counter.dark_per_gate.swept())
+      // A dark rate swept by the user stays a rate on its axis (Hz); resolve converts it per gate.
+      if (counter.dark_rate_hz && counter.dark_rate_hz->swept())
+        pp.axes.push_back({"counters." + counter.name + ".dark_rate_hz", "Hz", "counter dark-count rate",
+                           counter.dark_rate_hz->values, -1, static_cast<int>(c), "dark_rate_hz"});
+      else if (counter.dark_per_gate.swept())
         pp.axes.push_back({"counters." + counter.name + ".dark_per_gate", "1",
                            counter.kind == scenario::CounterKind::threshold ? "dark-click probability per gate"
                                                                            : "mean dark counts per gate",
@@ -140,6 +144,12 @@ steps::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
         m.kind = it->kind;
         m.efficiency = value_at(pp, index, -1, static_cast<int>(ci), "efficiency", it->efficiency);
         m.dark = value_at(pp, index, -1, static_cast<int>(ci), "dark_per_gate", it->dark_per_gate);
+        if (it->dark_rate_hz && it->dark_rate_hz->swept()) {
+          // Poissonian dark counts over the gate: click probability 1 - exp(-R t) (threshold) or
+          // mean count R t (resolving), as the scenario reader converts a single rate.
+          const double rate = value_at(pp, index, -1, static_cast<int>(ci), "dark_rate_hz", *it->dark_rate_hz);
+          m.dark = it->kind == scenario::CounterKind::threshold ? -std::expm1(-rate * it->gate_s) : rate * it->gate_s;
+        }
         m.gate_s = it->gate_s;
         m.reset_s = it->reset_s;
         counter_slot[ci] = static_cast<int>(spec.counters.size());

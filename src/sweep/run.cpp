@@ -241,6 +241,24 @@ verdict::Verdict compute_verdict(const scenario::Scenario& sc, const sweep::Plan
       pv.seconds_for_heralds = *sc.output.heralds_wanted / pv.heralding_rate_hz;
     pv.pays_off_log_negativity = usable(b) && b.log_negativity > v.bare_log_negativity;
     pv.pays_off_fidelity = usable(b) && b.fidelity > v.bare_fidelity;
+    if (pp.axes.size() > 1) {
+      for (std::size_t a = 1; a < pp.axes.size(); ++a) {
+        pv.slice_axes.push_back(pp.axes[a].name);
+        pv.slice_shape.push_back(pp.axes[a].values.size());
+      }
+      for (const TargetJob& job : target_jobs) {
+        if (job.protocol != p) continue;
+        const steps::PointResult& r = job.result;
+        const bool ok = usable(r);
+        pv.slice_log_negativity.push_back(ok ? r.log_negativity : 0.0);
+        pv.slice_fidelity.push_back(ok ? r.fidelity : 0.0);
+        pv.slice_success_probability.push_back(ok ? r.success_probability : 0.0);
+        pv.slice_heralding_rate_hz.push_back(
+            ok ? sweep::trial_rate_hz(sc, plan, p, job.index) * r.success_probability : 0.0);
+        pv.slice_false_herald_fraction.push_back(ok ? r.false_herald_fraction : 0.0);
+        pv.slice_status.push_back(static_cast<int>(r.status));
+      }
+    }
     pv.breakeven_log_negativity = crossings[3 * p + en_vs_bare];
     pv.breakeven_fidelity = crossings[3 * p + f_vs_bare];
     pv.fidelity_half = crossings[3 * p + f_vs_half];
@@ -301,6 +319,41 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
     }
     if (p.failed_points) out << "; " << p.failed_points << " grid points failed (see status in the file)";
     out << "\n";
+  }
+  // Two swept parameters (e.g. a counter's efficiency and dark rate): the map of the E_N gain
+  // over the bare link at the target, '+' where the stage pays off.
+  for (const auto& p : v.protocols) {
+    if (p.slice_shape.size() != 2) continue;
+    const std::size_t rows = p.slice_shape[0], cols = p.slice_shape[1];
+    const sweep::Plan plan = sweep::make_plan(sc);
+    const sweep::ProtocolPlan* pp = nullptr;
+    for (const auto& q : plan.protocols)
+      if (q.name == p.name) pp = &q;
+    if (!pp) continue;
+    out << "  " << p.name << ": E_N gain over the bare link at " << v.target_m << " m (rows " << p.slice_axes[0]
+        << ", columns " << p.slice_axes[1] << "; * pays off)\n";
+    std::snprintf(buf, sizeof buf, "  %12s", "");
+    out << buf;
+    for (std::size_t j = 0; j < cols; ++j) {
+      std::snprintf(buf, sizeof buf, " %10.3g", pp->axes[2].values[j]);
+      out << buf;
+    }
+    out << "\n";
+    for (std::size_t i = 0; i < rows; ++i) {
+      std::snprintf(buf, sizeof buf, "  %12.4g", pp->axes[1].values[i]);
+      out << buf;
+      for (std::size_t j = 0; j < cols; ++j) {
+        const std::size_t k = i * cols + j;
+        if (p.slice_status[k] != 0) {
+          std::snprintf(buf, sizeof buf, " %10s", "failed");
+        } else {
+          const double gain = p.slice_log_negativity[k] - v.bare_log_negativity;
+          std::snprintf(buf, sizeof buf, " %+9.3f%c", gain, gain > 0.0 ? '*' : ' ');
+        }
+        out << buf;
+      }
+      out << "\n";
+    }
   }
   return out.str();
 }
