@@ -67,10 +67,11 @@ std::string summarise(const sweep::ProtocolPlan& pp, const verdict::ProtocolVerd
   if (pv.pays_off_log_negativity && !pv.pays_off_fidelity) line << " (entanglement up, teleportation fidelity not)";
   if (!pv.pays_off_log_negativity && pv.pays_off_fidelity) line << " (fidelity up, entanglement not)";
   line << "; " << pv.heralding_rate_hz << " heralded pairs/s";
-  if (v.relay_log_negativity && *v.relay_log_negativity > best.log_negativity)
-    line << "; a midpoint relay would do better (E_N " << *v.relay_log_negativity << ")";
   line.precision(2);
   line << ", " << 100.0 * pv.false_herald_fraction << "% false heralds";
+  line.precision(3);
+  if (v.relay_log_negativity && *v.relay_log_negativity > best.log_negativity)
+    line << "; a midpoint relay would do better (E_N " << *v.relay_log_negativity << ")";
   return line.str();
 }
 
