@@ -358,13 +358,13 @@ std::optional<Param> Table::param(std::string_view member, const Bounds& b, bool
 Param Table::required_param(std::string_view member, const Bounds& b, bool tunable) const {
   auto p = param(member, b, tunable);
   if (!p)
-    missing(member, b.number_text() + ", a non-empty list of such numbers or a { from, to, points } table" +
-                        (tunable ? " or { tune = [lo, hi] }" : ""));
+    missing(member, b.number_text() + ", a non-empty list of such numbers or a { from, to, points } table");
   return *p;
 }
 
 std::pair<double, double> Table::tune_range(const Bounds& b) const {
-  only({"tune"});
+  for (const auto& [member, node] : members())
+    if (member != "tune") fail(member, "nothing beside tune in a { tune = [lo, hi] } table");
   const toml::node* n = find("tune");
   const std::string k = key("tune");
   const std::string expected = "[lo, hi]: two numbers with lo < hi, each " + b.number_text();
