@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <limits>
 #include <string>
 #include <vector>
@@ -16,15 +17,21 @@ using namespace heraldry;
 
 namespace {
 
+std::string number(double x) {
+  char buf[40];
+  std::snprintf(buf, sizeof buf, "%.17g", x);
+  return buf;
+}
+
 // A cryogenic line at 0 K (pure loss) with a threshold counter; `squeezing` and `protocol` are
 // spliced in as written.
 std::string line_scenario(const std::string& squeezing, const std::string& protocols, double loss_db_per_m,
                           double tolerance) {
   return "title = \"tune test\"\n[source]\nfrequency_ghz = 6.0\nsqueezing_db = " + squeezing +
          "\nbandwidth_mhz = 1.0\n[link]\nmedium = \"line\"\ndistance_m = 1.0\n[link.line]\nloss_db_per_m = " +
-         std::to_string(loss_db_per_m) + "\ntemperature_k = 0.0\n"
+         number(loss_db_per_m) + "\ntemperature_k = 0.0\n"
          "[counters.lab]\nkind = \"threshold\"\nefficiency = 0.5\ndark_per_gate = 1e-4\n" +
-         protocols + "[numerics]\ntolerance = " + std::to_string(tolerance) + "\n";
+         protocols + "[numerics]\ntolerance = " + number(tolerance) + "\n";
 }
 
 // Two-sided threshold subtraction with the tap on mode b written as given.
