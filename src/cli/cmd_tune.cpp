@@ -93,11 +93,14 @@ void text_output(const scenario::Scenario& sc, const tune::Result& r) {
     return;
   }
   const auto& f = r.at_best;
-  std::printf("optimum: %s = %.6g %s\n", tune::to_string(r.objective), f.objective, tune::units(r.objective));
+  const std::string u = tune::units(r.objective);
+  std::printf("optimum: %s = %.6g%s\n", tune::to_string(r.objective), f.objective, u == "1" ? "" : (" " + u).c_str());
   for (std::size_t i = 0; i < r.knobs.size(); ++i) {
     const auto& k = r.knobs[i];
-    std::printf("  %-26s = %-12.6g %-3s  range [%g, %g]  (%s)\n", k.name.c_str(), r.best[i],
-                k.units == "1" ? "" : k.units.c_str(), k.lo, k.hi, k.description.c_str());
+    // An optimum at an end of its range may lie beyond it: say so.
+    const char* end = r.best[i] == k.lo ? "  <- lower end of the range" : r.best[i] == k.hi ? "  <- upper end of the range" : "";
+    std::printf("  %-26s = %-12.6g %-3s  range [%g, %g]  (%s)%s\n", k.name.c_str(), r.best[i],
+                k.units == "1" ? "" : k.units.c_str(), k.lo, k.hi, k.description.c_str(), end);
   }
   std::printf("there: P_success %.6g, rate %.6g Hz, false heralds %.3f %%, E_N %.6f ebit, F %.6f, cutoff %d, "
               "truncation error %.2e\n",
