@@ -2,6 +2,8 @@
 // here (a different algorithm), constraints, and the input errors of the tune syntax.
 #include <doctest/doctest.h>
 
+#include <sys/wait.h>
+
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
@@ -244,4 +246,30 @@ TEST_CASE("a constraint nothing in the ranges meets leaves the tuning without a 
   const tune::Result r = tune::run(t, o);
   CHECK_FALSE(r.feasible);
   CHECK(r.sensitivity.empty());
+}
+
+TEST_CASE("heraldry tune on the shipped tuning scenario prints JSON and exits 3 when nothing is feasible") {
+  const std::string scenario = std::string(HERALDRY_SOURCE_DIR) + "/protocols/tuning.toml";
+  auto run_tool = [](const std::string& args, std::string& out) {
+    const std::string cmd = std::string("\"") + HERALDRY_BINARY + "\" " + args + " 2>&1";
+    FILE* pipe = ::popen(cmd.c_str(), "r");
+    REQUIRE(pipe != nullptr);
+    char buf[4096];
+    std::size_t n;
+    while ((n = std::fread(buf, 1, sizeof buf, pipe)) > 0) out.append(buf, n);
+    const int status = ::pclose(pipe);
+    return WIFEXITED(status) ? WEXITSTATUS(status) : -1;
+  };
+  std::string out;
+  CHECK(run_tool("tune \"" + scenario + "\" --protocol \"subtract both\" --objective rate --json", out) == 0);
+  CHECK(out.find("\"feasible\": true") != std::string::npos);
+  CHECK(out.find("\"name\": \"step3.transmissivity\"") != std::string::npos);
+  CHECK(out.find("nan") == std::string::npos);
+  // The heralding rate is at most the trial rate min(2 MHz, 1 / 11 us) = 9.1e4 /s (common
+  // practice), so a floor of 1e5 /s cannot be met.
+  out.clear();
+  CHECK(run_tool("tune \"" + scenario + "\" --protocol \"subtract both\" --objective rate --min-rate-hz 1e5", out) == 3);
+  CHECK(out.find("no setting in the ranges meets the constraints") != std::string::npos);
+  out.clear();
+  CHECK(run_tool("tune \"" + scenario + "\" --protocol \"subtract both\" --objective speed", out) == 2);
 }
