@@ -6,6 +6,7 @@
 #include <optional>
 #include <string>
 #include <string_view>
+#include <utility>
 #include <vector>
 
 #include "heraldry/common.hpp"
@@ -15,8 +16,12 @@
 namespace heraldry::scenario {
 
 /// A numeric parameter: one value, or a swept list of values (each swept parameter adds an axis).
+/// A step parameter written `{ tune = [lo, hi] }` is tunable: `tune` holds its range (SI, lo < hi,
+/// both inside the parameter's own bounds) for `heraldry tune`, and `values` holds the single
+/// midpoint (lo + hi) / 2, which is what `run`, `probe` and `check` use.
 struct Param {
   std::vector<double> values;           // at least one value, SI units
+  std::optional<std::pair<double, double>> tune;  // the range [lo, hi] of a tunable parameter
   bool swept() const { return values.size() > 1; }
   double first() const { return values.front(); }
 };
@@ -24,6 +29,9 @@ struct Param {
 struct Source {
   double frequency_hz = 5.0e9;
   double squeezing_db = 6.0;            // squeezing parameter in dB: r = dB ln(10) / 20
+  /// `squeezing_db = { tune = [lo, hi] }`: the range `heraldry tune` explores; squeezing_db then
+  /// holds the midpoint (lo + hi) / 2 for every other command.
+  std::optional<std::pair<double, double>> squeezing_db_tune;
   double thermal_photons = 0.0;         // per mode, at the source
   double bandwidth_hz = 1.0e6;          // mode rate; bounds the trial rate
 };

@@ -24,10 +24,21 @@ struct RunOptions {
   std::size_t stop_after = 0;
 };
 
+struct TuneOptions {
+  std::string scenario;
+  std::string protocol;
+  std::string objective;  // "fidelity", "log-negativity" or "rate"
+  std::optional<double> at_m;
+  std::optional<double> min_rate_hz;
+  std::optional<double> max_false_herald_fraction;
+  bool json = false;
+};
+
 int cmd_example();
 int cmd_run(const RunOptions& options);
 int cmd_check(const std::string& scenario);
 int cmd_link(const std::string& scenario);
 int cmd_probe(const ProbeOptions& options);
+int cmd_tune(const TuneOptions& options);
 
 }  // namespace heraldry::cli

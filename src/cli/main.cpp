@@ -39,6 +39,18 @@ int main(int argc, char** argv) {
   probe->add_flag("--json", probe_opts.json, "print one JSON object");
   probe->add_option("--set", probe_opts.set, "pin a swept parameter: PROTOCOL:AXIS=VALUE (repeatable)");
 
+  cli::TuneOptions tune_opts;
+  auto* tune = app.add_subcommand("tune", "optimise a protocol's { tune = [lo, hi] } parameters at one distance");
+  tune->add_option("scenario", tune_opts.scenario, "scenario file (TOML)")->required();
+  tune->add_option("--protocol", tune_opts.protocol, "the protocol to tune (its name)")->required();
+  tune->add_option("--objective", tune_opts.objective, "fidelity, log-negativity or rate (heralding rate x E_N)")
+      ->required();
+  tune->add_option("--at", tune_opts.at_m, "distance in metres (default: the scenario's target_m)");
+  tune->add_option("--min-rate-hz", tune_opts.min_rate_hz, "only settings heralding at least this rate");
+  tune->add_option("--max-false-herald-fraction", tune_opts.max_false_herald_fraction,
+                   "only settings with at most this false-herald fraction");
+  tune->add_flag("--json", tune_opts.json, "print one JSON object");
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
@@ -51,6 +63,7 @@ int main(int argc, char** argv) {
     if (*link) return cli::cmd_link(scenario);
     if (*probe) return cli::cmd_probe(probe_opts);
     if (*run) return cli::cmd_run(run_opts);
+    if (*tune) return cli::cmd_tune(tune_opts);
   } catch (const InputError& e) {
     std::fprintf(stderr, "heraldry: error: %s\n", e.what());
     return 2;

@@ -297,12 +297,13 @@ std::optional<std::size_t> Table::choice(std::string_view member,
   doc_->fail_at(*n, key(member), quoted_list(allowed));
 }
 
-std::optional<Param> Table::param(std::string_view member, const Bounds& b) const {
+std::optional<Param> Table::param(std::string_view member, const Bounds& b, bool tunable) const {
   const toml::node* n = find(member);
   if (n == nullptr) return std::nullopt;
   const std::string k = key(member);
   const std::string general =
-      b.number_text() + ", a non-empty list of such numbers or a { from, to, points } table";
+      b.number_text() + ", a non-empty list of such numbers or a { from, to, points } table" +
+      (tunable ? " or { tune = [lo, hi] }" : "");
   Param p;
   if (n->is_number()) {
     const double x = n->value<double>().value_or(std::nan(""));
@@ -322,6 +323,13 @@ std::optional<Param> Table::param(std::string_view member, const Bounds& b) cons
   }
   if (const auto* t = n->as_table()) {
     const Table r(*doc_, *t, k, Document::line(*n));
+    if (r.has("tune")) {
+      if (!tunable)
+        doc_->fail_at(*n, k, general, "tune ranges are for step parameters and [source] squeezing_db");
+      p.tune = r.tune_range(b);
+      p.values = {0.5 * (p.tune->first + p.tune->second)};
+      return p;
+    }
     r.only({"from", "to", "points", "scale"});
     const double from = r.required_number("from", Bounds::any());
     const double to = r.required_number("to", Bounds::any());
@@ -347,10 +355,29 @@ std::optional<Param> Table::param(std::string_view member, const Bounds& b) cons
   doc_->fail_at(*n, k, general);
 }
 
-Param Table::required_param(std::string_view member, const Bounds& b) const {
-  auto p = param(member, b);
-  if (!p) missing(member, b.number_text() + ", a non-empty list of such numbers or a { from, to, points } table");
+Param Table::required_param(std::string_view member, const Bounds& b, bool tunable) const {
+  auto p = param(member, b, tunable);
+  if (!p)
+    missing(member, b.number_text() + ", a non-empty list of such numbers or a { from, to, points } table");
   return *p;
+}
+
+std::pair<double, double> Table::tune_range(const Bounds& b) const {
+  for (const auto& [member, node] : members())
+    if (member != "tune") fail(member, "nothing beside tune in a { tune = [lo, hi] } table");
+  const toml::node* n = find("tune");
+  const std::string k = key("tune");
+  const std::string expected = "[lo, hi]: two numbers with lo < hi, each " + b.number_text();
+  const toml::array* a = n->as_array();
+  if (a == nullptr || a->size() != 2) doc_->fail_at(*n, k, expected);
+  double v[2];
+  for (std::size_t i = 0; i < 2; ++i) {
+    const toml::node& e = *a->get(i);
+    v[i] = e.is_number() ? e.value<double>().value_or(std::nan("")) : std::nan("");
+    if (!e.is_number() || !b.contains(v[i])) doc_->fail_at(e, k + "[" + std::to_string(i) + "]", b.number_text());
+  }
+  if (!(v[0] < v[1])) doc_->fail_at(*n, k, expected, "write the lower end first");
+  return {v[0], v[1]};
 }
 
 std::optional<Table> Table::table(std::string_view member) const {

@@ -10,6 +10,7 @@
 #include <optional>
 #include <string>
 #include <string_view>
+#include <utility>
 #include <vector>
 
 #include <toml++/toml.h>
@@ -115,8 +116,15 @@ public:
 
   /// A number, a non-empty list of numbers, or { from, to, points [, scale] } (inclusive;
   /// scale = "linear" (default) or "log" (geometric, from > 0)). Every value within `b`.
-  std::optional<Param> param(std::string_view member, const Bounds& b) const;
-  Param required_param(std::string_view member, const Bounds& b) const;
+  /// With `tunable`, also { tune = [lo, hi] } (lo < hi, both within `b`): a Param whose `tune`
+  /// holds the range and whose single value is the midpoint; without it, such a table is refused
+  /// with a hint saying where tune ranges are allowed.
+  std::optional<Param> param(std::string_view member, const Bounds& b, bool tunable = false) const;
+  Param required_param(std::string_view member, const Bounds& b, bool tunable = false) const;
+
+  /// The range of a `{ tune = [lo, hi] }` table (this table): exactly the key `tune`, two
+  /// numbers within `b`, lo < hi.
+  std::pair<double, double> tune_range(const Bounds& b) const;
 
   /// A sub-table (header or inline); a present member of another type is an error.
   std::optional<Table> table(std::string_view member) const;

@@ -56,7 +56,16 @@ Source read_source(const Table& root) {
   t.only({"frequency_ghz", "squeezing_db", "thermal_photons", "bandwidth_mhz"});
   Source s;
   s.frequency_hz = t.required_number("frequency_ghz", positive) * 1e9;
-  s.squeezing_db = t.required_number("squeezing_db", Bounds::closed(0.0, 30.0));
+  const Bounds squeezing = Bounds::closed(0.0, 30.0);
+  const toml::node* sq = t.find("squeezing_db");
+  if (sq != nullptr && sq->is_table()) {
+    const auto tuned = t.table("squeezing_db");
+    if (!tuned->has("tune")) t.fail("squeezing_db", squeezing.number_text() + " or { tune = [lo, hi] }");
+    s.squeezing_db_tune = tuned->tune_range(squeezing);
+    s.squeezing_db = 0.5 * (s.squeezing_db_tune->first + s.squeezing_db_tune->second);
+  } else {
+    s.squeezing_db = t.required_number("squeezing_db", squeezing);
+  }
   s.thermal_photons = t.number_or("thermal_photons", non_negative, 0.0);
   s.bandwidth_hz = t.required_number("bandwidth_mhz", positive) * 1e6;
   return s;
@@ -197,9 +206,9 @@ std::vector<Counter> read_counters(const Table& root) {
         k.dark_per_gate.values.push_back(k.kind == CounterKind::threshold ? -std::expm1(-mean) : mean);
       }
     } else if (k.kind == CounterKind::threshold) {
-      k.dark_per_gate = c.param("dark_per_gate", unit_closed).value_or(Param{{0.0}});
+      k.dark_per_gate = c.param("dark_per_gate", unit_closed).value_or(Param{{0.0}, std::nullopt});
     } else {
-      k.dark_per_gate = c.param("dark_per_gate", non_negative).value_or(Param{{0.0}});
+      k.dark_per_gate = c.param("dark_per_gate", non_negative).value_or(Param{{0.0}, std::nullopt});
     }
     out.push_back(std::move(k));
   }
@@ -251,7 +260,7 @@ Step read_step_table(const Table& st, const std::vector<Counter>& counters) {
   if (kind == "tap") {
     s.kind = StepKind::tap;
     st.only({"tap", "transmissivity", "counter", "counts"});
-    s.params["transmissivity"] = st.required_param("transmissivity", unit_open_closed);
+    s.params["transmissivity"] = st.required_param("transmissivity", unit_open_closed, true);
     s.counter = read_counter_name(st, counters);
     s.counts = static_cast<int>(st.integer("counts", 1, max_cutoff).value_or(1));
     const Counter* c = nullptr;
@@ -263,34 +272,37 @@ Step read_step_table(const Table& st, const std::vector<Counter>& counters) {
   } else if (kind == "add") {
     s.kind = StepKind::add;
     st.only({"add", "squeezing", "counter"});
-    s.params["squeezing"] = st.required_param("squeezing", Bounds{0.0, 3.0, true, true});
+    s.params["squeezing"] = st.required_param("squeezing", Bounds{0.0, 3.0, true, true}, true);
     s.counter = read_counter_name(st, counters);
   } else if (kind == "amplify") {
     s.kind = StepKind::amplify;
     st.only({"amplify", "gain", "max_photons"});
-    s.params["gain"] = st.required_param("gain", positive);
+    s.params["gain"] = st.required_param("gain", positive, true);
     const auto n = st.integer("max_photons", 1, max_cutoff);
     if (!n) st.missing("max_photons", "an integer in [1, " + std::to_string(max_cutoff) + "]");
     s.max_photons = static_cast<int>(*n);
   } else if (kind == "scissors") {
     s.kind = StepKind::scissors;
     st.only({"scissors", "gain", "counter", "photon_source_efficiency"});
-    s.params["gain"] = st.required_param("gain", positive);
+    s.params["gain"] = st.required_param("gain", positive, true);
     s.counter = read_counter_name(st, counters);
     s.params["photon_source_efficiency"] =
-        st.param("photon_source_efficiency", unit_closed).value_or(Param{{1.0}});
+        st.param("photon_source_efficiency", unit_closed, true).value_or(Param{{1.0}, std::nullopt});
   } else {
     s.kind = StepKind::loss;
     st.only({"loss", "transmissivity", "loss_db", "temperature_k"});
-    const auto t = st.param("transmissivity", unit_open_closed);
-    const auto db = st.param("loss_db", non_negative);
+    const auto t = st.param("transmissivity", unit_open_closed, true);
+    const auto db = st.param("loss_db", non_negative, true);
     if (t && db) st.fail("loss_db", "only one of transmissivity and loss_db");
     if (!t && !db) st.missing("transmissivity", "a number in (0, 1] (or loss_db, a number >= 0)");
     Param tau = t ? *t : Param{};
-    if (db)
+    if (db) {
       for (double x : db->values) tau.values.push_back(transmissivity_from_db(x));
+      // A tuned loss in dB is tuned as the transmissivity it stands for (decreasing in dB).
+      if (db->tune) tau.tune = {{transmissivity_from_db(db->tune->second), transmissivity_from_db(db->tune->first)}};
+    }
     s.params["transmissivity"] = tau;
-    s.params["temperature_k"] = st.param("temperature_k", non_negative).value_or(Param{{0.0}});
+    s.params["temperature_k"] = st.param("temperature_k", non_negative, true).value_or(Param{{0.0}, std::nullopt});
   }
   return s;
 }

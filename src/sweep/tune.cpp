@@ -1,0 +1,354 @@
+// `heraldry tune`: the tunable parameters of one protocol optimised at one distance.
+// Every evaluation is one point through sweep::resolve + steps::evaluate.
+#include "heraldry/tune.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <limits>
+
+#include <boost/math/tools/minima.hpp>
+
+#include "heraldry/gaussian.hpp"
+#include "heraldry/steps.hpp"
+#include "heraldry/sweep.hpp"
+#include "scenario/suggest.hpp"
+
+namespace heraldry::tune {
+
+namespace {
+
+constexpr double minus_infinity = -std::numeric_limits<double>::infinity();
+
+std::string number_text(double x) {
+  char buf[40];
+  std::snprintf(buf, sizeof buf, "%.10g", x);
+  return buf;
+}
+
+std::string quoted(std::string_view s) { return "\"" + std::string(s) + "\""; }
+
+// The dotted file key of a step parameter, as scenario messages write it (0-based indices).
+std::string file_key(std::size_t protocol, std::size_t step, const std::string& key) {
+  return "protocol[" + std::to_string(protocol) + "].steps[" + std::to_string(step) + "]." + key;
+}
+
+// The scenario with only protocol p, every swept parameter of it (and of the counters) pinned
+// to its first value, so that its plan has the distance as its only axis.
+scenario::Scenario pinned(const scenario::Scenario& sc, std::size_t p) {
+  scenario::Scenario w;
+  w.title = sc.title;
+  w.path = sc.path;
+  w.source = sc.source;
+  w.link = sc.link;
+  w.counters = sc.counters;
+  w.numerics = sc.numerics;
+  w.output = sc.output;
+  w.protocols = {sc.protocols.at(p)};
+  for (auto& step : w.protocols[0].steps)
+    for (auto& [key, param] : step.params) param.values = {param.first()};
+  for (auto& c : w.counters) {
+    c.efficiency.values = {c.efficiency.first()};
+    c.dark_per_gate.values = {c.dark_per_gate.first()};
+  }
+  return w;
+}
+
+// Evaluates settings of the knobs on a pinned scenario; counts the evaluations.
+class Evaluator {
+public:
+  Evaluator(const scenario::Scenario& sc, const Options& options, std::size_t protocol, double distance_m,
+            std::span<const Knob> knobs)
+      : w_(pinned(sc, protocol)), options_(options), d_(distance_m), knobs_(knobs.begin(), knobs.end()) {}
+
+  Figures operator()(std::span<const double> values) {
+    if (values.size() != knobs_.size()) throw std::invalid_argument("tune: one value per tunable parameter");
+    for (std::size_t i = 0; i < knobs_.size(); ++i) {
+      const Knob& k = knobs_[i];
+      if (k.step < 0)
+        w_.source.squeezing_db = values[i];
+      else
+        w_.protocols[0].steps[static_cast<std::size_t>(k.step)].params.at(k.key).values = {values[i]};
+    }
+    const sweep::Plan plan = sweep::make_plan(w_);
+    const std::vector<std::size_t> index(plan.protocols[0].axes.size(), 0);
+    const steps::PointSpec spec = sweep::resolve(w_, plan, 0, index, d_);
+    const steps::PointResult r = steps::evaluate(spec);
+    ++count_;
+
+    Figures f;
+    f.status = r.status;
+    f.cutoff = r.cutoff;
+    f.truncation_error = r.truncation_error;
+    f.objective = minus_infinity;
+    if (r.status != Status::ok) return f;
+    const double trials = steps::trial_rate_hz(w_.source.bandwidth_hz, steps::counters_used(spec.steps, spec.counters));
+    f.success_probability = r.success_probability;
+    f.heralding_rate_hz = trials * r.success_probability;
+    f.false_herald_fraction = r.false_herald_fraction;
+    f.log_negativity = r.log_negativity;
+    f.fidelity = r.fidelity;
+    f.feasible = (!options_.min_rate_hz || f.heralding_rate_hz >= *options_.min_rate_hz) &&
+                 (!options_.max_false_herald_fraction ||
+                  f.false_herald_fraction <= *options_.max_false_herald_fraction);
+    if (!f.feasible) return f;
+    switch (options_.objective) {
+      case Objective::fidelity: f.objective = f.fidelity; break;
+      case Objective::log_negativity: f.objective = f.log_negativity; break;
+      case Objective::rate: f.objective = f.heralding_rate_hz * f.log_negativity; break;
+    }
+    return f;
+  }
+
+  std::size_t count() const { return count_; }
+  const scenario::Scenario& pinned_scenario() const { return w_; }
+
+private:
+  scenario::Scenario w_;
+  Options options_;
+  double d_;
+  std::vector<Knob> knobs_;
+  std::size_t count_ = 0;
+};
+
+// The best point found so far.
+struct Point {
+  std::vector<double> x;
+  Figures f;
+};
+
+// Brent's method needs finite values: an infeasible point is worse than any feasible one.
+constexpr double infeasible_cost = 1e30;
+// Bits of Brent's x tolerance: 2^(1-20) ~ 2e-6 relative; finer is below the figures' own
+// truncation noise at the usual tolerances.
+constexpr int brent_bits = 20;
+
+// Maximises along coordinate i within [a, b] from `best` (whose value is kept if Brent's
+// candidate is not better).
+void line_search(Evaluator& eval, Point& best, std::size_t i, double a, double b) {
+  if (!(b > a)) return;
+  std::vector<double> x = best.x;
+  Figures last;
+  double last_x = std::nan("");
+  auto cost = [&](double xi) {
+    x[i] = xi;
+    last = eval(x);
+    last_x = xi;
+    return last.feasible ? -last.objective : infeasible_cost;
+  };
+  std::uintmax_t max_iter = 60;
+  const auto [xm, fm] = boost::math::tools::brent_find_minima(cost, a, b, brent_bits, max_iter);
+  if (!(fm < infeasible_cost)) return;
+  if (!(-fm > best.f.objective)) return;
+  Figures f = last;
+  if (last_x != xm) {
+    x[i] = xm;
+    f = eval(x);
+  }
+  if (f.feasible && f.objective > best.f.objective) {
+    best.x = x;
+    best.x[i] = xm;
+    best.f = f;
+  }
+}
+
+Point optimise_one(Evaluator& eval, const Knob& k) {
+  constexpr int scan = 9;
+  Point best{{k.lo}, {}};
+  best.f.objective = minus_infinity;
+  int at = -1;
+  std::vector<double> xs(scan);
+  for (int j = 0; j < scan; ++j) {
+    xs[j] = j + 1 == scan ? k.hi : k.lo + (k.hi - k.lo) * j / (scan - 1);
+    const std::vector<double> x{xs[j]};
+    const Figures f = eval(x);
+    if (f.feasible && f.objective > best.f.objective) {
+      best = {x, f};
+      at = j;
+    }
+  }
+  if (at < 0) return best;
+  line_search(eval, best, 0, xs[std::max(at - 1, 0)], xs[std::min(at + 1, scan - 1)]);
+  return best;
+}
+
+Point optimise_many(Evaluator& eval, std::span<const Knob> knobs) {
+  const std::size_t n = knobs.size();
+  const std::size_t m = n == 3 ? 3 : 5;
+  std::size_t total = 1;
+  for (std::size_t i = 0; i < n; ++i) total *= m;
+  Point best{std::vector<double>(n), {}};
+  best.f.objective = minus_infinity;
+  for (std::size_t flat = 0; flat < total; ++flat) {
+    std::vector<double> x(n);
+    std::size_t rest = flat;
+    for (std::size_t i = n; i-- > 0;) {
+      const std::size_t j = rest % m;
+      rest /= m;
+      x[i] = j + 1 == m ? knobs[i].hi : knobs[i].lo + (knobs[i].hi - knobs[i].lo) * static_cast<double>(j) / static_cast<double>(m - 1);
+    }
+    const Figures f = eval(x);
+    if (f.feasible && f.objective > best.f.objective) best = {x, f};
+  }
+  if (!best.f.feasible) return best;
+
+  // Cyclic coordinate search: each line search spans +-h around the current value; a minimum
+  // on an inner edge of that bracket moves the bracket on (up to a few times); h halves after
+  // every sweep.
+  std::vector<double> h(n);
+  for (std::size_t i = 0; i < n; ++i) h[i] = (knobs[i].hi - knobs[i].lo) / static_cast<double>(m - 1);
+  constexpr int max_sweeps = 12, max_moves = 6;
+  for (int sweep = 0; sweep < max_sweeps; ++sweep) {
+    const double before = best.f.objective;
+    for (std::size_t i = 0; i < n; ++i) {
+      for (int move = 0; move < max_moves; ++move) {
+        const double a = std::max(knobs[i].lo, best.x[i] - h[i]);
+        const double b = std::min(knobs[i].hi, best.x[i] + h[i]);
+        line_search(eval, best, i, a, b);
+        const double edge_tol = 1e-3 * h[i];
+        const bool on_inner_edge = (a > knobs[i].lo && best.x[i] - a < edge_tol) ||
+                                   (b < knobs[i].hi && b - best.x[i] < edge_tol);
+        if (!on_inner_edge) break;
+      }
+    }
+    if (std::abs(best.f.objective - before) <= 1e-6 * std::abs(best.f.objective)) break;
+    for (std::size_t i = 0; i < n; ++i) h[i] = std::max(0.5 * h[i], 1e-3 * (knobs[i].hi - knobs[i].lo));
+  }
+  return best;
+}
+
+}  // namespace
+
+const char* to_string(Objective objective) {
+  switch (objective) {
+    case Objective::fidelity: return "fidelity";
+    case Objective::log_negativity: return "log-negativity";
+    case Objective::rate: return "rate";
+  }
+  return "unknown";
+}
+
+const char* units(Objective objective) {
+  switch (objective) {
+    case Objective::fidelity: return "1";
+    case Objective::log_negativity: return "ebit";
+    case Objective::rate: return "ebit/s";
+  }
+  return "";
+}
+
+Objective objective_from_string(std::string_view name) {
+  for (Objective o : {Objective::fidelity, Objective::log_negativity, Objective::rate})
+    if (name == to_string(o)) return o;
+  const auto near = scenario::detail::closest(name, {"fidelity", "log-negativity", "rate"});
+  throw InputError("--objective", 0, "--objective", quoted(name), "\"fidelity\", \"log-negativity\" or \"rate\"",
+                   near ? "did you mean \"" + *near + "\"?" : std::string());
+}
+
+std::vector<Knob> knobs(const scenario::Scenario& sc, std::size_t protocol) {
+  std::vector<Knob> out;
+  if (sc.source.squeezing_db_tune)
+    out.push_back({"source.squeezing_db", "dB", "two-mode squeezing at the source", sc.source.squeezing_db_tune->first,
+                   sc.source.squeezing_db_tune->second, -1, "squeezing_db"});
+  const scenario::Protocol& p = sc.protocols.at(protocol);
+  for (std::size_t s = 0; s < p.steps.size(); ++s)
+    for (const auto& [key, param] : p.steps[s].params) {
+      if (!param.tune) continue;
+      out.push_back({"step" + std::to_string(s + 1) + "." + key, key == "temperature_k" ? "K" : "1",
+                     std::string(scenario::to_string(p.steps[s].kind)) + " on mode " + to_string(p.steps[s].mode) +
+                         ": " + key,
+                     param.tune->first, param.tune->second, static_cast<int>(s), key});
+    }
+  return out;
+}
+
+std::size_t find_protocol(const scenario::Scenario& sc, std::string_view name) {
+  std::vector<std::string_view> names;
+  for (std::size_t i = 0; i < sc.protocols.size(); ++i) {
+    if (sc.protocols[i].name == name) return i;
+    names.push_back(sc.protocols[i].name);
+  }
+  std::string list;
+  for (std::size_t i = 0; i < names.size(); ++i) list += (i ? ", " : "") + quoted(names[i]);
+  const auto near = scenario::detail::closest(name, names);
+  throw InputError("--protocol", 0, "--protocol", quoted(name), "the name of a protocol of the scenario: " + list,
+                   near ? "did you mean \"" + *near + "\"?" : std::string());
+}
+
+std::size_t check(const scenario::Scenario& sc, const Options& options) {
+  if (options.at_m && !(*options.at_m >= 0.0 && std::isfinite(*options.at_m)))
+    throw InputError("--at", 0, "--at", number_text(*options.at_m), "a distance in metres >= 0");
+  if (options.min_rate_hz && !(*options.min_rate_hz >= 0.0 && std::isfinite(*options.min_rate_hz)))
+    throw InputError("--min-rate-hz", 0, "--min-rate-hz", number_text(*options.min_rate_hz), "a rate in Hz >= 0");
+  if (options.max_false_herald_fraction &&
+      !(*options.max_false_herald_fraction >= 0.0 && *options.max_false_herald_fraction <= 1.0))
+    throw InputError("--max-false-herald-fraction", 0, "--max-false-herald-fraction",
+                     number_text(*options.max_false_herald_fraction), "a fraction in [0, 1]");
+  const std::size_t p = find_protocol(sc, options.protocol);
+  const std::vector<Knob> ks = knobs(sc, p);
+  if (ks.empty()) {
+    std::string keys = "source.squeezing_db";
+    const scenario::Protocol& proto = sc.protocols[p];
+    for (std::size_t s = 0; s < proto.steps.size(); ++s)
+      for (const auto& [key, param] : proto.steps[s].params) keys += ", " + file_key(p, s, key);
+    throw InputError(sc.path, 0, "--protocol", quoted(options.protocol),
+                     "a protocol with a parameter written { tune = [lo, hi] }",
+                     "its tunable keys: " + keys);
+  }
+  if (ks.size() > 3) {
+    std::string names;
+    for (const auto& k : ks) names += (names.empty() ? "" : ", ") + k.name;
+    throw InputError(sc.path, 0, "--protocol", quoted(options.protocol),
+                     "at most three tunable parameters (found " + std::to_string(ks.size()) + ": " + names + ")",
+                     "give the others a number");
+  }
+  return p;
+}
+
+Figures evaluate_at(const scenario::Scenario& sc, const Options& options, std::size_t protocol, double distance_m,
+                    std::span<const Knob> knobs, std::span<const double> values) {
+  Evaluator eval(sc, options, protocol, distance_m, knobs);
+  return eval(values);
+}
+
+Result run(const scenario::Scenario& sc, const Options& options) {
+  const std::size_t p = check(sc, options);
+  Result res;
+  res.protocol = sc.protocols[p].name;
+  res.objective = options.objective;
+  res.distance_m = options.at_m ? *options.at_m : sc.link.target_m;
+  res.knobs = knobs(sc, p);
+
+  Evaluator eval(sc, options, p, res.distance_m, res.knobs);
+  const Point best = res.knobs.size() == 1 ? optimise_one(eval, res.knobs[0]) : optimise_many(eval, res.knobs);
+  res.feasible = best.f.feasible;
+  res.best = best.x;
+  res.at_best = best.f;
+
+  if (res.feasible) {
+    for (std::size_t i = 0; i < res.knobs.size(); ++i) {
+      const Knob& k = res.knobs[i];
+      Sensitivity s;
+      std::vector<double> x = best.x;
+      s.minus_value = x[i] = std::clamp(0.95 * best.x[i], k.lo, k.hi);
+      s.minus_objective = eval(x).objective;
+      s.plus_value = x[i] = std::clamp(1.05 * best.x[i], k.lo, k.hi);
+      s.plus_objective = eval(x).objective;
+      res.sensitivity.push_back(s);
+    }
+  }
+  res.evaluations = eval.count();
+
+  // The bare link with the source of the optimum (its squeezing, if tuned).
+  double squeezing_db = sc.source.squeezing_db;
+  for (std::size_t i = 0; i < res.knobs.size(); ++i)
+    if (res.knobs[i].step < 0 && res.feasible) squeezing_db = res.best[i];
+  const link::LinkBudget budget = link::link_budget(sc.link.model, res.distance_m);
+  auto bare = gaussian::tmst(squeezing_parameter_from_db(squeezing_db), sc.source.thermal_photons);
+  bare = gaussian::apply(gaussian::apply(bare, Mode::A, budget.a.channel), Mode::B, budget.b.channel);
+  res.bare_log_negativity = gaussian::log_negativity(bare);
+  res.bare_fidelity = gaussian::fidelity(bare);
+  return res;
+}
+
+}  // namespace heraldry::tune
