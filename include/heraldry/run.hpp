@@ -31,6 +31,7 @@ struct Summary {
   std::size_t computed_points = 0;    // computed by this run
   std::size_t failed_points = 0;      // status not ok
   double seconds = 0.0;
+  double verdict_seconds = 0.0;       // of `seconds`: the verdict (on rank 0 only, after the sweep)
   int threads = 1;
   bool interrupted = false;
   bool worker = false;                // an MPI rank > 0: it only evaluated points for rank 0 (no data, no file)

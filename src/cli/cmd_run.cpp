@@ -44,8 +44,9 @@ int cmd_run(const RunOptions& options) {
     return 130;
   }
   if (s.ranks > 1)
-    std::fprintf(stderr, "heraldry run: %zu points (%zu resumed) in %.2f s on %d ranks x %d threads, %.1f points/s -> %s\n",
-                 s.total_points, s.resumed_points, s.seconds, s.ranks, s.threads,
+    std::fprintf(stderr,
+                 "heraldry run: %zu points (%zu resumed) in %.2f s (verdict %.2f s) on %d ranks x %d threads, %.1f points/s -> %s\n",
+                 s.total_points, s.resumed_points, s.seconds, s.verdict_seconds, s.ranks, s.threads,
                  s.computed_points / (s.seconds > 0 ? s.seconds : 1.0), s.file.c_str());
   else
     std::fprintf(stderr, "heraldry run: %zu points (%zu resumed) in %.2f s on %d threads, %.1f points/s -> %s\n",

@@ -440,7 +440,9 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
     output::write_file(partial, sc, plan, data, prov, false);
     summary.file = partial;
   } else {
+    const auto tv = Clock::now();
     data.verdict = compute_verdict(sc, plan, data, summary.threads);
+    summary.verdict_seconds = std::chrono::duration<double>(Clock::now() - tv).count();
     output::write_file(summary.file, sc, plan, data, prov, true);
     fs::remove(partial, ec);
   }
