@@ -304,17 +304,25 @@ private:
 
 }  // namespace
 
-int rank_index() {
-  int init = 0, r = 0;
+namespace {
+// MPI is usable between MPI_Init and MPI_Finalize (only once per process).
+bool mpi_active() {
+  int init = 0, done = 0;
   MPI_Initialized(&init);
-  if (init) MPI_Comm_rank(MPI_COMM_WORLD, &r);
+  MPI_Finalized(&done);
+  return init && !done;
+}
+}  // namespace
+
+int rank_index() {
+  int r = 0;
+  if (mpi_active()) MPI_Comm_rank(MPI_COMM_WORLD, &r);
   return r;
 }
 
 int rank_count() {
-  int init = 0, n = 1;
-  MPI_Initialized(&init);
-  if (init) MPI_Comm_size(MPI_COMM_WORLD, &n);
+  int n = 1;
+  if (mpi_active()) MPI_Comm_size(MPI_COMM_WORLD, &n);
   return n;
 }
 
@@ -437,15 +445,17 @@ void serve(int threads, const std::function<Outcome(const Job&)>& evaluate, cons
 }  // namespace detail
 
 RankSession::RankSession() {
-  int init = 0;
+  int init = 0, done = 0;
   MPI_Initialized(&init);
+  MPI_Finalized(&done);
+  if (done) return;  // MPI cannot start twice in a process: a single-process run
   if (!init) {
     int provided = 0;
     MPI_Init_thread(nullptr, nullptr, MPI_THREAD_FUNNELED, &provided);
     started_ = true;
   }
-  MPI_Comm_rank(MPI_COMM_WORLD, &ranks_.rank);
-  MPI_Comm_size(MPI_COMM_WORLD, &ranks_.size);
+  ranks_.rank = detail::rank_index();
+  ranks_.size = detail::rank_count();
 }
 
 RankSession::~RankSession() {
