@@ -489,7 +489,15 @@ std::optional<scenario::Scenario> shared_scenario(const std::function<scenario::
   std::string both(static_cast<std::size_t>(sizes[0] + sizes[1]), '\0');
   MPI_Bcast(both.data(), static_cast<int>(both.size()), MPI_CHAR, 0, MPI_COMM_WORLD);
   const auto n = static_cast<std::size_t>(sizes[0]);
-  return scenario::parse(both.substr(0, n), both.substr(n));
+  try {
+    return scenario::parse(both.substr(0, n), both.substr(n));
+  } catch (const std::exception& e) {
+    // Rank 0 parsed this very text: a failure here is a defect, and rank 0 would wait for this rank.
+    std::fprintf(stderr, "heraldry: MPI rank %d cannot parse the scenario rank 0 parsed: %s\n", detail::rank_index(),
+                 e.what());
+    MPI_Abort(MPI_COMM_WORLD, 70);
+  }
+  return std::nullopt;  // not reached
 }
 
 }  // namespace heraldry::run

@@ -6,6 +6,7 @@
 #include <cstdio>
 #include <cstdlib>
 #include <ctime>
+#include <exception>
 #include <filesystem>
 #include <functional>
 #include <limits>
@@ -59,17 +60,29 @@ detail::Outcome evaluate_point(const scenario::Scenario& sc, const sweep::Plan& 
   return o;
 }
 
-// An MPI rank > 0: evaluates the batches rank 0 hands out; no files.
+// An MPI rank > 0: evaluates the batches rank 0 hands out; no files. An error here is reported
+// to rank 0 with the first batch (rank 0 waits for every rank's request before it can return).
 Summary serve_rank(const scenario::Scenario& sc, const Options& options) {
   const auto t0 = Clock::now();
   Summary summary;
   summary.worker = true;
   summary.ranks = detail::rank_count();
   summary.threads = sweep::thread_count(options.threads > 0 ? options.threads : sc.numerics.threads);
-  const sweep::Plan plan = sweep::make_plan(sc);
-  summary.total_points = plan.total_points();
-  detail::serve(summary.threads, [&](const detail::Job& job) { return evaluate_point(sc, plan, job); },
-                [] { return stop_requested.load(); });
+  std::optional<sweep::Plan> plan;
+  std::exception_ptr failure;
+  try {
+    plan = sweep::make_plan(sc);
+    summary.total_points = plan->total_points();
+  } catch (...) {
+    failure = std::current_exception();
+  }
+  detail::serve(
+      summary.threads,
+      [&](const detail::Job& job) {
+        if (failure) std::rethrow_exception(failure);
+        return evaluate_point(sc, *plan, job);
+      },
+      [] { return stop_requested.load(); });
   summary.seconds = std::chrono::duration<double>(Clock::now() - t0).count();
   return summary;
 }
