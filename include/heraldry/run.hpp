@@ -4,6 +4,7 @@
 
 #include <cstddef>
 #include <functional>
+#include <optional>
 #include <string>
 
 #include "heraldry/gaussian.hpp"
@@ -31,13 +32,48 @@ struct Summary {
   std::size_t computed_points = 0;    // computed by this run
   std::size_t failed_points = 0;      // status not ok
   double seconds = 0.0;
+  double verdict_seconds = 0.0;       // of `seconds`: the verdict (on rank 0 only, after the sweep)
   int threads = 1;
   bool interrupted = false;
+  bool worker = false;                // an MPI rank > 0: it only evaluated points for rank 0 (no data, no file)
+  int ranks = 1;                      // MPI ranks that took part (1 without MPI)
   output::RunData data;
 };
 
+/// This process's place in an MPI job: rank 0 of 1 without MPI or when not started by an MPI
+/// launcher.
+struct Ranks {
+  int rank = 0;
+  int size = 1;
+};
+
+/// MPI for the lifetime of the object (MPI_Init_thread with funneled threading; MPI_Finalize in
+/// the destructor) in a build configured with HERALDRY_WITH_MPI; nothing otherwise. One per
+/// process, created before `shared_scenario` and `execute`. With K > 1 ranks, `execute` runs
+/// the sweep on all of them: rank 0 coordinates and is the only one that writes files; ranks
+/// 1..K-1 return a Summary with `worker` set.
+class RankSession {
+public:
+  RankSession();
+  ~RankSession();
+  RankSession(const RankSession&) = delete;
+  RankSession& operator=(const RankSession&) = delete;
+  Ranks ranks() const { return ranks_; }
+
+private:
+  Ranks ranks_;
+  bool started_ = false;
+};
+
+/// The scenario every rank sweeps: rank 0 calls `load` and sends the text to the other ranks,
+/// which parse it (so the ranks agree even when the file is not visible on every node). Rethrows
+/// load's error on rank 0; returns nullopt on the other ranks in that case (they should exit
+/// quietly: rank 0 reports). Without MPI: load().
+std::optional<scenario::Scenario> shared_scenario(const std::function<scenario::Scenario()>& load);
+
 /// Asks a running `execute` to stop at the next chunk boundary and keep its checkpoint
-/// (async-signal-safe: sets an atomic flag).
+/// (async-signal-safe: sets an atomic flag). On an MPI rank > 0 the rank finishes its batch and
+/// asks rank 0 to stop the whole run; rank 0 writes the checkpoint.
 void request_stop();
 
 /// The midpoint-relay baseline at distance d: two copies of the source, each sending mode b over
@@ -57,6 +93,9 @@ verdict::Verdict compute_verdict(const scenario::Scenario& sc, const sweep::Plan
 
 /// Runs (or resumes) the sweep. Throws InputError for a result that exists already (without
 /// force) or a checkpoint of another scenario; std::runtime_error for an unwritable output.
+/// Under MPI (a RankSession with K > 1 ranks) it must be called on every rank with the same
+/// scenario and options; the values equal those of a single-process run. An error on any rank
+/// (e.g. an InputError found while evaluating a point) is rethrown on rank 0, naming the rank.
 Summary execute(const scenario::Scenario& sc, const Options& options);
 
 /// The verdict as a terminal table plus one line per protocol in words.

@@ -1,6 +1,7 @@
 // `heraldry run [SCENARIO]`: the main job.
 #include <csignal>
 #include <cstdio>
+#include <optional>
 #include <unistd.h>
 
 #include "cli/commands.hpp"
@@ -14,19 +15,27 @@ extern "C" void on_signal(int) { run::request_stop(); }
 }  // namespace
 
 int cmd_run(const RunOptions& options) {
-  const scenario::Scenario sc = options.scenario.empty() ? scenario::demo() : scenario::load(options.scenario);
+  // MPI (in a build with HERALDRY_WITH_MPI) lives as long as this object; with one rank, or
+  // without MPI, what follows is the plain single-process run.
+  const run::RankSession session;
+  const bool coordinator = session.ranks().rank == 0;
+  const std::optional<scenario::Scenario> shared = run::shared_scenario(
+      [&] { return options.scenario.empty() ? scenario::demo() : scenario::load(options.scenario); });
+  if (!shared) return 2;  // rank 0 could not read the scenario and says why
+  const scenario::Scenario& sc = *shared;
   run::Options ro;
   ro.output = options.output;
   ro.threads = options.threads;
   ro.force = options.force;
   ro.stop_after_points = options.stop_after;
-  ro.progress = isatty(STDERR_FILENO) != 0;
+  ro.progress = coordinator && isatty(STDERR_FILENO) != 0;
   ro.version = HERALDRY_VERSION;
   std::signal(SIGINT, on_signal);
   std::signal(SIGTERM, on_signal);
 
-  std::fprintf(stderr, "heraldry run: %s\n", sc.title.c_str());
+  if (coordinator) std::fprintf(stderr, "heraldry run: %s\n", sc.title.c_str());
   const run::Summary s = run::execute(sc, ro);
+  if (s.worker) return 0;  // rank 0 reports for the whole run
   if (s.interrupted) {
     std::fprintf(stderr,
                  "heraldry run: stopped after %zu new points (%zu of %zu done); checkpoint kept in %s\n"
@@ -34,9 +43,15 @@ int cmd_run(const RunOptions& options) {
                  s.computed_points, s.computed_points + s.resumed_points, s.total_points, s.file.c_str());
     return 130;
   }
-  std::fprintf(stderr, "heraldry run: %zu points (%zu resumed) in %.2f s on %d threads, %.1f points/s -> %s\n",
-               s.total_points, s.resumed_points, s.seconds, s.threads,
-               s.computed_points / (s.seconds > 0 ? s.seconds : 1.0), s.file.c_str());
+  if (s.ranks > 1)
+    std::fprintf(stderr,
+                 "heraldry run: %zu points (%zu resumed) in %.2f s (verdict %.2f s) on %d ranks x %d threads, %.1f points/s -> %s\n",
+                 s.total_points, s.resumed_points, s.seconds, s.verdict_seconds, s.ranks, s.threads,
+                 s.computed_points / (s.seconds > 0 ? s.seconds : 1.0), s.file.c_str());
+  else
+    std::fprintf(stderr, "heraldry run: %zu points (%zu resumed) in %.2f s on %d threads, %.1f points/s -> %s\n",
+                 s.total_points, s.resumed_points, s.seconds, s.threads,
+                 s.computed_points / (s.seconds > 0 ? s.seconds : 1.0), s.file.c_str());
   const std::string text = run::format_verdict(sc, *s.data.verdict);
   std::fwrite(text.data(), 1, text.size(), stdout);
   return s.failed_points > 0 ? 3 : 0;

@@ -6,14 +6,17 @@
 #include <cstdio>
 #include <cstdlib>
 #include <ctime>
+#include <exception>
 #include <filesystem>
 #include <functional>
 #include <limits>
+#include <optional>
 #include <sstream>
 
 #include "heraldry/fock.hpp"
 #include "heraldry/gaussian.hpp"
 #include "heraldry/run.hpp"
+#include "sweep/mpi_run.hpp"
 
 namespace heraldry::run {
 
@@ -44,6 +47,53 @@ double bare_signed_log_negativity(const scenario::Scenario& sc, double d) {
 }
 
 bool usable(const steps::PointResult& r) { return r.status == Status::ok; }
+
+// One grid point and its heralding rate. Trial rates depend only on the counter settings, not
+// the distance: computed per point anyway (cheap) so that swept counter parameters are honoured.
+detail::Outcome evaluate_point(const scenario::Scenario& sc, const sweep::Plan& plan, const detail::Job& job) {
+  const auto [p, flat] = job;
+  const auto idx = plan.protocols[p].unflatten(flat);
+  const steps::PointSpec spec = sweep::resolve(sc, plan, p, idx);
+  detail::Outcome o{job, steps::evaluate(spec), 0.0};
+  const double rate = steps::trial_rate_hz(sc.source.bandwidth_hz, steps::counters_used(spec.steps, spec.counters));
+  o.heralding_rate_hz = o.result.status == Status::ok ? rate * o.result.success_probability : 0.0;
+  return o;
+}
+
+// An MPI rank > 0: evaluates the batches rank 0 hands out; no files. An error here is reported
+// to rank 0 with the first batch (rank 0 waits for every rank's request before it can return).
+Summary serve_rank(const scenario::Scenario& sc, const Options& options) {
+  const auto t0 = Clock::now();
+  Summary summary;
+  summary.worker = true;
+  summary.ranks = detail::rank_count();
+  summary.threads = sweep::thread_count(options.threads > 0 ? options.threads : sc.numerics.threads);
+  std::optional<sweep::Plan> plan;
+  std::exception_ptr failure;
+  try {
+    plan = sweep::make_plan(sc);
+    summary.total_points = plan->total_points();
+  } catch (...) {
+    failure = std::current_exception();
+  }
+  detail::serve(
+      summary.threads,
+      [&](const detail::Job& job) {
+        if (failure) std::rethrow_exception(failure);
+        return evaluate_point(sc, *plan, job);
+      },
+      [] { return stop_requested.load(); });
+  summary.seconds = std::chrono::duration<double>(Clock::now() - t0).count();
+  return summary;
+}
+
+// Rank 0 of an MPI run: whatever way execute() ends, no other rank is left waiting for work.
+struct ReleaseRanks {
+  ReleaseRanks() { detail::expect_workers(); }
+  ~ReleaseRanks() { detail::release_workers(); }
+  ReleaseRanks(const ReleaseRanks&) = delete;
+  ReleaseRanks& operator=(const ReleaseRanks&) = delete;
+};
 
 // One line in words: does the protocol pay off at the target, and at what rate?
 std::string summarise(const sweep::ProtocolPlan& pp, const verdict::ProtocolVerdict& pv, const steps::PointResult& best,
@@ -362,8 +412,13 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
 Summary execute(const scenario::Scenario& sc, const Options& options) {
   namespace fs = std::filesystem;
   stop_requested.store(false);
+  const int ranks = detail::rank_count();
+  if (ranks > 1 && detail::rank_index() != 0) return serve_rank(sc, options);
+  std::optional<ReleaseRanks> release;
+  if (ranks > 1) release.emplace();
   const auto t0 = Clock::now();
   Summary summary;
+  summary.ranks = ranks;
   summary.file = options.output.empty() ? sc.output.file : options.output;
   const std::string partial = summary.file + ".partial";
   std::error_code ec;
@@ -379,7 +434,7 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
   data.link = link_table(sc);
 
   summary.threads = sweep::thread_count(options.threads > 0 ? options.threads : sc.numerics.threads);
-  output::Provenance prov{options.version, summary.threads, 1, utc_now()};
+  output::Provenance prov{options.version, summary.threads, ranks, utc_now()};
 
   // Jobs: (protocol, flat index) pairs not done yet, in a fixed order.
   std::vector<std::pair<std::size_t, std::size_t>> jobs;
@@ -416,16 +471,10 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
   for (std::size_t j = 0; j < todo.size(); ++j) todo[j] = j;
   std::stable_sort(todo.begin(), todo.end(), [&](std::size_t x, std::size_t y) { return cost[x] > cost[y]; });
 
-  // Trial rates depend only on the counter settings, not the distance: computed per job anyway
-  // (cheap) so that swept counter parameters are honoured.
   auto evaluate_job = [&](std::size_t j) {
-    const auto [p, flat] = jobs[j];
-    const auto idx = plan.protocols[p].unflatten(flat);
-    const steps::PointSpec spec = sweep::resolve(sc, plan, p, idx);
-    steps::PointResult r = steps::evaluate(spec);
-    const double rate = steps::trial_rate_hz(sc.source.bandwidth_hz, steps::counters_used(spec.steps, spec.counters));
-    data.protocols[p].points[flat] = r;
-    data.protocols[p].heralding_rate_hz[flat] = r.status == Status::ok ? rate * r.success_probability : 0.0;
+    const detail::Outcome o = evaluate_point(sc, plan, jobs[j]);
+    data.protocols[o.job.first].points[o.job.second] = o.result;
+    data.protocols[o.job.first].heralding_rate_hz[o.job.second] = o.heralding_rate_hz;
   };
 
   auto last_checkpoint = Clock::now();
@@ -434,8 +483,7 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
     for (std::size_t k = computed; k < done; ++k) data.protocols[jobs[todo[k]].first].done[jobs[todo[k]].second] = 1;
     computed = done;
   };
-  auto after_chunk = [&](std::size_t done) {
-    mark_done(done);
+  auto checkpoint_and_progress = [&](std::size_t done) {
     const double since = std::chrono::duration<double>(Clock::now() - last_checkpoint).count();
     if (since >= options.checkpoint_seconds) {
       output::write_file(partial, sc, plan, data, prov, false);
@@ -453,7 +501,30 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
     if (stop_requested.load()) return true;
     return options.stop_after_points > 0 && computed >= options.stop_after_points;
   };
-  sweep::dispatch(todo, summary.threads, evaluate_job, stop, after_chunk);
+  auto after_chunk = [&](std::size_t done) {
+    mark_done(done);
+    checkpoint_and_progress(done);
+  };
+  if (ranks == 1) {
+    sweep::dispatch(todo, summary.threads, evaluate_job, stop, after_chunk);
+  } else {
+    // Rank 0 hands the same cost-ordered jobs to the ranks; results arrive in any order and
+    // are stored here, on this thread (the checkpoint writer's).
+    std::vector<detail::Job> ordered;
+    for (std::size_t j : todo) ordered.push_back(jobs[j]);
+    detail::CoordinatorHooks hooks;
+    hooks.evaluate = [&](const detail::Job& job) { return evaluate_point(sc, plan, job); };
+    hooks.store = [&](const detail::Outcome& o) {
+      output::ProtocolTable& t = data.protocols.at(o.job.first);
+      t.points.at(o.job.second) = o.result;
+      t.heralding_rate_hz[o.job.second] = o.heralding_rate_hz;
+      t.done[o.job.second] = 1;
+      ++computed;
+    };
+    hooks.stop = stop;
+    hooks.tick = [&] { checkpoint_and_progress(computed); };
+    detail::coordinate(ordered, summary.threads, hooks);
+  }
   if (options.progress) std::fprintf(stderr, "\n");
   summary.computed_points = computed;
 
@@ -462,7 +533,9 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
     output::write_file(partial, sc, plan, data, prov, false);
     summary.file = partial;
   } else {
+    const auto tv = Clock::now();
     data.verdict = compute_verdict(sc, plan, data, summary.threads);
+    summary.verdict_seconds = std::chrono::duration<double>(Clock::now() - tv).count();
     output::write_file(summary.file, sc, plan, data, prov, true);
     fs::remove(partial, ec);
   }
