@@ -5,6 +5,7 @@
 #include <string>
 
 #include "cli/commands.hpp"
+#include "cli/json.hpp"
 #include "heraldry/gaussian.hpp"
 #include "heraldry/scenario.hpp"
 #include "heraldry/sweep.hpp"
@@ -12,30 +13,6 @@
 namespace heraldry::cli {
 
 namespace {
-
-std::string json_string(const std::string& s) {
-  std::string out = "\"";
-  for (char ch : s) {
-    if (ch == '"' || ch == '\\') {
-      out += '\\';
-      out += ch;
-    } else if (static_cast<unsigned char>(ch) < 0x20) {
-      char buf[8];
-      std::snprintf(buf, sizeof buf, "\\u%04x", ch);
-      out += buf;
-    } else {
-      out += ch;
-    }
-  }
-  return out + "\"";
-}
-
-std::string json_number(double v) {
-  if (!std::isfinite(v)) return "null";
-  char buf[40];
-  std::snprintf(buf, sizeof buf, "%.17g", v);
-  return buf;
-}
 
 // Applies one --set "PROTOCOL:AXIS=VALUE" to the plan (the axis keeps only that value).
 void apply_set(sweep::Plan& plan, const std::string& text) {

@@ -6,36 +6,13 @@
 #include <string>
 
 #include "cli/commands.hpp"
+#include "cli/json.hpp"
 #include "heraldry/scenario.hpp"
 #include "heraldry/tune.hpp"
 
 namespace heraldry::cli {
 
 namespace {
-
-std::string json_string(const std::string& s) {
-  std::string out = "\"";
-  for (char ch : s) {
-    if (ch == '"' || ch == '\\') {
-      out += '\\';
-      out += ch;
-    } else if (static_cast<unsigned char>(ch) < 0x20) {
-      char buf[8];
-      std::snprintf(buf, sizeof buf, "\\u%04x", ch);
-      out += buf;
-    } else {
-      out += ch;
-    }
-  }
-  return out + "\"";
-}
-
-std::string json_number(double v) {
-  if (!std::isfinite(v)) return "null";
-  char buf[40];
-  std::snprintf(buf, sizeof buf, "%.17g", v);
-  return buf;
-}
 
 // "0.0123 (-1.2 %)" or "infeasible": the objective at a neighbour and its drop from the optimum.
 std::string drop_text(double objective, double best) {
