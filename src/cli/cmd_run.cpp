@@ -20,11 +20,14 @@ int cmd_run(const RunOptions& options) {
   ro.threads = options.threads;
   ro.force = options.force;
   ro.stop_after_points = options.stop_after;
+  ro.checkpoint_seconds = options.checkpoint_seconds;
   ro.progress = isatty(STDERR_FILENO) != 0;
   ro.version = HERALDRY_VERSION;
   std::signal(SIGINT, on_signal);
   std::signal(SIGTERM, on_signal);
 
+  preflight_output(sc, ro.output.empty() ? sc.output.file : ro.output);
+  preflight_memory(sc);
   std::fprintf(stderr, "heraldry run: %s\n", sc.title.c_str());
   const run::Summary s = run::execute(sc, ro);
   if (s.interrupted) {
