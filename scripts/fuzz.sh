@@ -11,9 +11,10 @@ seconds=${1:-120}
 [[ "$seconds" =~ ^[0-9]+$ ]] || { echo "fuzz.sh: SECONDS must be a whole number, got '$seconds'" >&2; exit 2; }
 ./scripts/setup.sh --fuzz
 build=${FUZZ_BUILD_DIR:-build-fuzz}
+mkdir -p "$build"
 CC=clang CXX=clang++ cmake -S . -B "$build" -DCMAKE_BUILD_TYPE=RelWithDebInfo -DHERALDRY_FUZZ=ON \
-  -DHERALDRY_BUILD_TESTS=OFF -DHERALDRY_WITH_OPENMP=OFF > "$build.configure.log" \
-  || { cat "$build.configure.log" >&2; exit 1; }
+  -DHERALDRY_BUILD_TESTS=OFF -DHERALDRY_WITH_OPENMP=OFF > "$build/configure.log" \
+  || { cat "$build/configure.log" >&2; exit 1; }
 cmake --build "$build" -j "${JOBS:-2}" --target fuzz_scenario
 
 corpus="$build/corpus"      # grows across runs; the seeds are copied in every time
