@@ -88,7 +88,9 @@ TEST_CASE("the trial rate is bounded by the bandwidth and by every counter's gat
 
 TEST_CASE("invalid counters and readings are input errors") {
   CHECK_THROWS_AS(validate(threshold(1.2, 0.0), "lab"), InputError);
-  CHECK_THROWS_AS(validate(threshold(0.5, 1.0), "lab"), InputError);
+  // A dark-click probability is in [0, 1] (p = 1: a click on every gate, see test_core_extremes.cpp).
+  CHECK_THROWS_AS(validate(threshold(0.5, 1.0 + 1e-12), "lab"), InputError);
+  CHECK_THROWS_AS(validate(threshold(0.5, -1e-12), "lab"), InputError);
   CHECK_THROWS_AS(reading_probability(threshold(0.5, 0.0), 2, 3), InputError);
   CHECK_THROWS_AS(reading_probability(resolving(0.5, 0.0), -1, 3), InputError);
   CHECK_THROWS_AS(tap_operation(1.5, threshold(0.5, 0.0), 1, 5), InputError);

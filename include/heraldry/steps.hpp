@@ -54,7 +54,7 @@ double reading_probability(const CounterModel& counter, int reading, int photons
 std::vector<double> reading_weights(const CounterModel& counter, int reading, int max_photons,
                                     Weighting weighting = Weighting::full);
 
-/// Checks efficiency in [0, 1], dark in [0, 1) (threshold) or >= 0 (resolving), gate > 0,
+/// Checks efficiency in [0, 1], dark in [0, 1] (threshold) or >= 0 (resolving), gate > 0,
 /// reset >= 0. `key` names the counter in the message.
 void validate(const CounterModel& counter, const std::string& key);
 
@@ -167,8 +167,10 @@ struct PointResult {
 /// tolerance needs more memory than max_memory_bytes, when a fixed cutoff misses it, or when the
 /// error stops falling with the cutoff (cutoff_needed: the cutoff the tolerance needs,
 /// extrapolated); herald_below_roundoff when P < 1e-300 or P does not exceed the truncation
-/// ledger (the figures are then 0 but P). Figures are never NaN; invalid_result if a guard
-/// catches a non-finite one. A protocol with counters but no dark counts has no false heralds
+/// ledger (the figures are then 0 but P). Figures are never NaN; invalid_result (figures 0) if
+/// a guard catches a non-finite one or one outside its range by more than round-off (P, F and
+/// the false-herald fraction in [0, 1] within 1e-12 / 1e-9, N and E_N >= -1e-9); a value
+/// outside by round-off only is set to the bound it crossed. A protocol with counters but no dark counts has no false heralds
 /// (0 without a second run); otherwise the steps run a second time with genuine weights.
 /// Throws InputError for inconsistent input (a counter index out of range, a parameter out of
 /// its domain, a fixed cutoff whose state does not fit in max_memory_bytes).

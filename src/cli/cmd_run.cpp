@@ -28,11 +28,15 @@ int cmd_run(const RunOptions& options) {
   ro.threads = options.threads;
   ro.force = options.force;
   ro.stop_after_points = options.stop_after;
+  ro.checkpoint_seconds = options.checkpoint_seconds;
   ro.progress = coordinator && isatty(STDERR_FILENO) != 0;
   ro.version = HERALDRY_VERSION;
   std::signal(SIGINT, on_signal);
   std::signal(SIGTERM, on_signal);
 
+  // Every rank checks (the same input gives the same refusal everywhere, so no rank waits).
+  preflight_output(sc, ro.output.empty() ? sc.output.file : ro.output);
+  preflight_memory(sc);
   if (coordinator) std::fprintf(stderr, "heraldry run: %s\n", sc.title.c_str());
   const run::Summary s = run::execute(sc, ro);
   if (s.worker) return 0;  // rank 0 reports for the whole run

@@ -7,6 +7,8 @@
 #include <string>
 #include <vector>
 
+#include "heraldry/scenario.hpp"
+
 namespace heraldry::cli {
 
 struct ProbeOptions {
@@ -22,6 +24,7 @@ struct RunOptions {
   int threads = 0;
   bool force = false;
   std::size_t stop_after = 0;
+  double checkpoint_seconds = 5.0;  // testing: checkpoint period
 };
 
 struct TuneOptions {
@@ -40,5 +43,11 @@ int cmd_check(const std::string& scenario);
 int cmd_link(const std::string& scenario);
 int cmd_probe(const ProbeOptions& options);
 int cmd_tune(const TuneOptions& options);
+
+/// Before any work: the result file's folder exists or can be created (InputError otherwise).
+void preflight_output(const scenario::Scenario& sc, const std::string& file);
+/// Before any work: the states at the cutoff the bare link needs (bounded by max_cutoff), or
+/// at the fixed cutoff, fit in max_memory_mb; InputError naming the cutoff and memory otherwise.
+void preflight_memory(const scenario::Scenario& sc);
 
 }  // namespace heraldry::cli

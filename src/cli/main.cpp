@@ -31,6 +31,9 @@ int main(int argc, char** argv) {
   run->add_flag("--force", run_opts.force, "overwrite an existing result file");
   run->add_option("--stop-after", run_opts.stop_after, "stop after this many new points, keeping the checkpoint (testing)")
       ->group("");
+  run->add_option("--checkpoint-seconds", run_opts.checkpoint_seconds, "checkpoint period in seconds (testing)")
+      ->check(CLI::NonNegativeNumber)
+      ->group("");
 
   cli::ProbeOptions probe_opts;
   auto* probe = app.add_subcommand("probe", "every protocol's figures at one distance");

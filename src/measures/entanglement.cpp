@@ -17,6 +17,11 @@ void Workspace::Impl::size_sector(int cutoff) {
   if (sector_cutoff == cutoff) return;
   pt_blocks.clear();
   pt_solvers.clear();
+  // Eigen 3.4 leaves a solver's `info` member uninitialised until compute(): relocating an
+  // uncomputed solver reads it (undefined behaviour, reported by UBSan). Reserving first makes
+  // every solver be constructed in place and never moved.
+  pt_blocks.reserve(static_cast<std::size_t>(cutoff) + 1);
+  pt_solvers.reserve(static_cast<std::size_t>(cutoff) + 1);
   for (int k = 1; k <= cutoff + 1; ++k) {
     pt_blocks.emplace_back(k, k);
     pt_solvers.emplace_back(k);
@@ -28,7 +33,7 @@ void Workspace::Impl::size_dense(int cutoff) {
   if (dense_cutoff == cutoff) return;
   const int dim = (cutoff + 1) * (cutoff + 1);
   dense_pt.resize(dim, dim);
-  dense_solver = Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd>(dim);
+  dense_solver.emplace(dim);  // in place, not moved: see size_sector
   dense_cutoff = cutoff;
 }
 
@@ -86,8 +91,8 @@ Entanglement entanglement(const fock::DenseState& state, Workspace& work) {
   for (int m = 0; m < dim; ++m)
     for (int mp = 0; mp < dim; ++mp)
       w.dense_pt.block(m * dim, mp * dim, dim, dim) = rho.block(m * dim, mp * dim, dim, dim).transpose();
-  w.dense_solver.compute(w.dense_pt, Eigen::EigenvaluesOnly);
-  return from_trace_norm(w.dense_solver.eigenvalues().cwiseAbs().sum() / trace);
+  w.dense_solver->compute(w.dense_pt, Eigen::EigenvaluesOnly);
+  return from_trace_norm(w.dense_solver->eigenvalues().cwiseAbs().sum() / trace);
 }
 
 Entanglement entanglement(const fock::SectorState& state) {

@@ -1,6 +1,7 @@
 // The measures' scratch memory (the body of heraldry::measures::Workspace). Not public.
 #pragma once
 
+#include <optional>
 #include <vector>
 
 #include <Eigen/Core>
@@ -20,7 +21,7 @@ struct Workspace::Impl {
   // Dense partial transpose.
   int dense_cutoff = -1;
   Eigen::MatrixXd dense_pt;
-  Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> dense_solver;
+  std::optional<Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd>> dense_solver;  // engaged by size_dense
 
   // EPR operator in the block layout of SectorState.
   int epr_cutoff = -1;

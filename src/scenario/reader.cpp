@@ -102,6 +102,79 @@ void raise(const std::string& file, int line, const std::string& key, const std:
   throw InputError(file, line, key, value, expected, hint);
 }
 
+namespace {
+
+// toml++ 3.3 (the Debian 12 package) reaches a branch marked unreachable (undefined behaviour)
+// when it asks whether certain non-ASCII code points are whitespace (U+00A1..U+0499 among
+// others, e.g. 'e' with an accent in a bare key). It asks only outside strings and comments,
+// and after a backslash inside basic strings. TOML 1.0 allows no non-ASCII character outside
+// strings and comments and no non-ASCII escape, so refusing those bytes before the parser sees
+// them refuses no valid TOML, except a non-ASCII character right after a line-ending backslash
+// in a multi-line string, which we refuse as a limitation of the reader. Found by fuzzing
+// (fuzz/fuzz_scenario.cpp).
+void refuse_bytes_the_parser_mishandles(std::string_view text, const std::string& file) {
+  enum class In { code, comment, basic, multi_basic, literal, multi_literal };
+  In in = In::code;
+  int line = 1;
+  auto non_ascii = [](char c) { return (static_cast<unsigned char>(c) & 0x80) != 0; };
+  auto refuse = [&](const char* why) { raise(file, line, "<syntax>", "", "valid TOML", why); };
+  auto starts = [&](std::size_t i, std::string_view s) { return text.substr(i, s.size()) == s; };
+  std::size_t i = starts(0, "\xEF\xBB\xBF") ? 3 : 0;  // a UTF-8 byte-order mark is allowed
+  while (i < text.size()) {
+    const char c = text[i];
+    if (c == '\n') ++line;
+    switch (in) {
+      case In::code:
+        if (non_ascii(c)) refuse("a non-ASCII character outside a quoted string or a comment");
+        if (c == '#') in = In::comment;
+        if (c == '"') in = starts(i, "\"\"\"") ? (i += 2, In::multi_basic) : In::basic;
+        if (c == '\'') in = starts(i, "'''") ? (i += 2, In::multi_literal) : In::literal;
+        break;
+      case In::comment:
+        if (c == '\n') in = In::code;
+        break;
+      case In::literal:
+        if (c == '\'' || c == '\n') in = In::code;
+        break;
+      case In::multi_literal:
+        if (starts(i, "'''")) {
+          i += 2;
+          while (i + 1 < text.size() && text[i + 1] == '\'') ++i;  // up to two quotes before the closing ones
+          in = In::code;
+        }
+        break;
+      case In::basic:
+      case In::multi_basic:
+        if (c == '\\') {
+          if (i + 1 < text.size() && non_ascii(text[i + 1])) refuse("a non-ASCII character after a backslash");
+          if (in == In::multi_basic && i + 1 < text.size() &&
+              (text[i + 1] == ' ' || text[i + 1] == '\t' || text[i + 1] == '\r' || text[i + 1] == '\n')) {
+            // A line-ending backslash: the parser skips the whitespace that follows.
+            while (i + 1 < text.size() &&
+                   (text[i + 1] == ' ' || text[i + 1] == '\t' || text[i + 1] == '\r' || text[i + 1] == '\n')) {
+              if (text[i + 1] == '\n') ++line;
+              ++i;
+            }
+            if (i + 1 < text.size() && non_ascii(text[i + 1]))
+              refuse("an ASCII character first after a line-ending backslash (a limitation of the TOML reader)");
+          } else {
+            ++i;  // the escaped character
+          }
+        } else if (in == In::basic && (c == '"' || c == '\n')) {
+          in = In::code;
+        } else if (in == In::multi_basic && starts(i, "\"\"\"")) {
+          i += 2;
+          while (i + 1 < text.size() && text[i + 1] == '"') ++i;
+          in = In::code;
+        }
+        break;
+    }
+    ++i;
+  }
+}
+
+}  // namespace
+
 Document::Document(std::string_view text, std::string file) : file_(std::move(file)), text_(text) {
   std::string_view rest = text_;
   while (true) {
@@ -110,6 +183,7 @@ Document::Document(std::string_view text, std::string file) : file_(std::move(fi
     if (nl == std::string_view::npos) break;
     rest.remove_prefix(nl + 1);
   }
+  refuse_bytes_the_parser_mishandles(text_, file_);
   try {
     root_ = toml::parse(text_, std::string_view(file_));
   } catch (const toml::parse_error& e) {

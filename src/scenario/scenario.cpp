@@ -203,6 +203,10 @@ std::vector<Counter> read_counters(const Table& root) {
       // clicks on at least one, p = 1 - exp(-R t).
       for (double r : rate->values) {
         const double mean = r * k.gate_s;
+        // A finite rate times a finite gate can overflow (1e308 Hz x 10 s): refused here, where
+        // the message can name the key and the line, not later by the counter model.
+        if (!std::isfinite(mean))
+          c.fail("dark_rate_hz", "a rate whose dark counts per gate (rate x gate) are a finite number");
         k.dark_per_gate.values.push_back(k.kind == CounterKind::threshold ? -std::expm1(-mean) : mean);
       }
     } else if (k.kind == CounterKind::threshold) {

@@ -47,8 +47,10 @@ void validate(const CounterModel& c, const std::string& key) {
   if (!(c.efficiency >= 0.0 && c.efficiency <= 1.0))
     detail::fail(key + ".efficiency", c.efficiency, "a value in [0, 1]");
   if (c.kind == CounterKind::threshold) {
-    if (!(c.dark >= 0.0 && c.dark < 1.0))
-      detail::fail(key + ".dark_per_gate", c.dark, "a probability in [0, 1)");
+    // p = 1 is legal (the scenario accepts dark_per_gate = 1, and a huge dark rate rounds to
+    // it): every gate clicks, the weights below stay finite (log1p(-1) = -inf, expm1(-inf) = -1).
+    if (!(c.dark >= 0.0 && c.dark <= 1.0))
+      detail::fail(key + ".dark_per_gate", c.dark, "a probability in [0, 1]");
   } else if (!(c.dark >= 0.0) || !std::isfinite(c.dark)) {
     detail::fail(key + ".dark_per_gate", c.dark, "a mean count >= 0");
   }

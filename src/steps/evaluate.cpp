@@ -17,6 +17,20 @@ namespace {
 // Below this a success probability is not a resolvable number in double precision.
 constexpr double smallest_probability = 1e-300;
 constexpr int max_cutoff_rounds = 40;
+// Round-off allowed on the ranges of the figures: a success probability is a sum of O(N^2)
+// diagonal elements (relative round-off ~1e-13); E_N, N and F come from eigen-solvers and
+// quadratic forms of the normalised state (absolute round-off ~1e-12).
+constexpr double probability_slack = 1e-12;
+constexpr double measure_slack = 1e-9;
+
+// Range guard: x in [lo, hi] within `slack` (then set to the bound it crossed by round-off);
+// false when x is not finite or lies outside by more than round-off, which is a numerical
+// breakdown, never a value to clip silently.
+bool within(double& x, double lo, double hi, double slack) {
+  if (!std::isfinite(x) || x < lo - slack || x > hi + slack) return false;
+  x = std::clamp(x, lo, hi);
+  return true;
+}
 
 void check_channel(const link::Channel& c, const std::string& key) {
   if (!(c.transmissivity >= 0.0 && c.transmissivity <= 1.0))
@@ -233,13 +247,19 @@ private:
     r.success_probability = run.probability;
     r.amplifier_cut_fraction = run.cut_fraction;
     const double p = run.probability;
+    if (!std::isfinite(p) || p < -probability_slack || p > 1.0 + probability_slack) {
+      // A trace-non-increasing map cannot give P outside [0, 1]: a numerical breakdown.
+      r.status = Status::invalid_result;
+      r.success_probability = 0.0;
+      return;
+    }
     if (!(p >= smallest_probability) || !(p > run.ledger)) {
       // A herald too rare for double precision, or a state so far beyond the cutoff that the
       // lost weight exceeds what is kept (a link whose bath swamps the mode): no figures.
       r.status = p >= smallest_probability ? Status::truncation_budget_missed : Status::herald_below_roundoff;
       r.truncation_error = p > 0.0 ? run.error() : 0.0;
       if (!std::isfinite(r.truncation_error)) r.truncation_error = 0.0;
-      r.success_probability = std::max(0.0, p);
+      r.success_probability = std::max(0.0, p);  // |p| <= probability_slack here: round-off
       return;
     }
     r.truncation_error = run.error();
@@ -256,12 +276,17 @@ private:
       const double genuine = (half.probability > 0.0 && half.ledger <= spec_.tolerance * half.probability)
                                  ? half.probability
                                  : this->run(cutoff, Weighting::genuine).probability;
-      r.false_herald_fraction = std::clamp(1.0 - genuine / p, 0.0, 1.0);
+      r.false_herald_fraction = 1.0 - genuine / p;  // range-checked below, not clipped
     }
     r.status = Status::ok;
     for (double x : {r.success_probability, r.negativity, r.log_negativity, r.fidelity, r.false_herald_fraction,
                      r.truncation_error, r.amplifier_cut_fraction})
       if (!std::isfinite(x)) r.status = Status::invalid_result;
+    // Ranges (PointResult's contract): P, F and the false-herald fraction in [0, 1]; N, E_N >= 0.
+    if (!within(r.success_probability, 0.0, 1.0, probability_slack) ||
+        !within(r.negativity, 0.0, INFINITY, measure_slack) || !within(r.log_negativity, 0.0, INFINITY, measure_slack) ||
+        !within(r.fidelity, 0.0, 1.0, measure_slack) || !within(r.false_herald_fraction, 0.0, 1.0, measure_slack))
+      r.status = Status::invalid_result;
     if (r.status == Status::invalid_result) {
       r.negativity = r.log_negativity = r.fidelity = r.false_herald_fraction = 0.0;
       if (!std::isfinite(r.success_probability)) r.success_probability = 0.0;
