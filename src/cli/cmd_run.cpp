@@ -5,6 +5,7 @@
 #include <unistd.h>
 
 #include "cli/commands.hpp"
+#include "heraldry/common.hpp"
 #include "heraldry/run.hpp"
 #include "heraldry/scenario.hpp"
 
@@ -34,9 +35,15 @@ int cmd_run(const RunOptions& options) {
   std::signal(SIGINT, on_signal);
   std::signal(SIGTERM, on_signal);
 
-  // Every rank checks (the same input gives the same refusal everywhere, so no rank waits).
-  preflight_output(sc, ro.output.empty() ? sc.output.file : ro.output);
-  preflight_memory(sc);
+  // Every rank checks (the same input gives the same refusal everywhere, so no rank waits for
+  // another); only rank 0 says why.
+  try {
+    preflight_output(sc, ro.output.empty() ? sc.output.file : ro.output);
+    preflight_memory(sc);
+  } catch (const InputError&) {
+    if (coordinator) throw;
+    return 2;
+  }
   if (coordinator) std::fprintf(stderr, "heraldry run: %s\n", sc.title.c_str());
   const run::Summary s = run::execute(sc, ro);
   if (s.worker) return 0;  // rank 0 reports for the whole run

@@ -47,15 +47,16 @@ case "$mode" in
     compare "$work/full.h5" "$work/part.h5"
     ;;
   error)
-    # A fixed cutoff whose state exceeds the memory allowed: every point throws InputError.
+    # A fixed cutoff whose state exceeds the memory allowed: every rank refuses it before any
+    # work (cmd_run's preflight), and only rank 0 prints the reason.
     sed -e 's/^tolerance = 1e-7$/cutoff = 300\nmax_memory_mb = 1/' "$scenario" >"$work/too_big.toml"
     rc=0
     # shellcheck disable=SC2086
     timeout 120 "$mpiexec" ${MPIEXEC_PREFLAGS:-} "$np_flag" "$k" "$heraldry" run "$work/too_big.toml" -o "$work/e.h5" -t 1 \
       >/dev/null 2>"$work/e.err" || rc=$?
     [ "$rc" = 2 ] || fail "exit code $rc, expected 2 (bad input): $(cat "$work/e.err")"
-    [ "$(grep -c '^heraldry: error: .*numerics.cutoff' "$work/e.err")" = 1 ] \
-      || fail "expected one error message naming numerics.cutoff: $(cat "$work/e.err")"
+    [ "$(grep -c '^heraldry: error: .*numerics.max_memory_mb' "$work/e.err")" = 1 ] \
+      || fail "expected one error message naming numerics.max_memory_mb: $(cat "$work/e.err")"
     ;;
   *) echo "run_ranks.sh: unknown mode '$mode'" >&2; exit 2 ;;
 esac
