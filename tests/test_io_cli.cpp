@@ -1,6 +1,8 @@
 // The command line as a user runs it: exit codes, the link table, probe's JSON.
 #include <doctest/doctest.h>
 
+#include "tool_runner.hpp"
+
 #include <H5Cpp.h>
 #include <sys/wait.h>
 #include <unistd.h>
@@ -13,26 +15,10 @@
 #include <vector>
 
 namespace fs = std::filesystem;
+using heraldry::testing::Outcome;
+using heraldry::testing::run_tool;
 
 namespace {
-
-struct Outcome {
-  int code = -1;
-  std::string output;  // stdout and stderr together
-};
-
-Outcome run_tool(const std::string& args) {
-  const std::string cmd = std::string("\"") + HERALDRY_BINARY + "\" " + args + " 2>&1";
-  Outcome o;
-  FILE* pipe = ::popen(cmd.c_str(), "r");
-  REQUIRE(pipe != nullptr);
-  char buf[4096];
-  std::size_t n;
-  while ((n = std::fread(buf, 1, sizeof buf, pipe)) > 0) o.output.append(buf, n);
-  const int status = ::pclose(pipe);
-  o.code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  return o;
-}
 
 std::string source(const std::string& rel) { return std::string(HERALDRY_SOURCE_DIR) + "/" + rel; }
 

@@ -3,6 +3,8 @@
 // figures that follow closed forms.
 #include <doctest/doctest.h>
 
+#include "tool_runner.hpp"
+
 #include <sys/wait.h>
 
 #include <cstdio>
@@ -11,26 +13,10 @@
 #include <string>
 
 namespace fs = std::filesystem;
+using heraldry::testing::Outcome;
+using heraldry::testing::run_tool;
 
 namespace {
-
-struct Outcome {
-  int code = -1;
-  std::string output;  // stdout and stderr together
-};
-
-Outcome run_tool(const std::string& args) {
-  const std::string cmd = std::string("\"") + HERALDRY_BINARY + "\" " + args + " 2>&1";
-  Outcome o;
-  FILE* pipe = ::popen(cmd.c_str(), "r");
-  REQUIRE(pipe != nullptr);
-  char buf[4096];
-  std::size_t n;
-  while ((n = std::fread(buf, 1, sizeof buf, pipe)) > 0) o.output.append(buf, n);
-  const int status = ::pclose(pipe);
-  o.code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-  return o;
-}
 
 fs::path scratch(const std::string& name) {
   const fs::path dir = fs::temp_directory_path() / ("heraldry_io_extremes_" + name);
