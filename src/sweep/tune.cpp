@@ -36,14 +36,7 @@ std::string file_key(std::size_t protocol, std::size_t step, const std::string& 
 // The scenario with only protocol p, every swept parameter of it (and of the counters) pinned
 // to its first value, so that its plan has the distance as its only axis.
 scenario::Scenario pinned(const scenario::Scenario& sc, std::size_t p) {
-  scenario::Scenario w;
-  w.title = sc.title;
-  w.path = sc.path;
-  w.source = sc.source;
-  w.link = sc.link;
-  w.counters = sc.counters;
-  w.numerics = sc.numerics;
-  w.output = sc.output;
+  scenario::Scenario w = sc;
   w.protocols = {sc.protocols.at(p)};
   for (auto& step : w.protocols[0].steps)
     for (auto& [key, param] : step.params) param.values = {param.first()};
