@@ -5,26 +5,26 @@
 #include <doctest/doctest.h>
 
 #include "heraldry/gaussian.hpp"
+#include "heraldry/point.hpp"
 #include "heraldry/steps.hpp"
 
 using namespace heraldry;
 using namespace heraldry::steps;
+using namespace heraldry::point;
 
 namespace {
 
 StepSpec tap_b(double t, int counter = 0, int counts = 1) {
-  StepSpec s;
-  s.kind = StepKind::tap, s.mode = Mode::B, s.transmissivity = t, s.counter = counter, s.counts = counts;
-  return s;
+  return make("tap", Mode::B, {{"transmissivity", t}, {"counts", counts}}, counter);
 }
 
-PointSpec point(double r, link::Channel a, link::Channel b) {
+PointSpec link_point_spec(double r, link::Channel a, link::Channel b) {
   PointSpec p;
-  p.squeezing_r = r;
+  p.source.squeezing_r = r;
   p.channel_a = a;
   p.channel_b = b;
-  p.steps = {StepSpec{}};  // the link
-  p.tolerance = 1e-12;
+  p.steps = {make("link")};
+  p.numerics.tolerance = 1e-12;
   return p;
 }
 
@@ -59,9 +59,9 @@ const double r_20db = squeezing_parameter_from_db(20.0);  // ln 10
 TEST_CASE("20 dB of squeezing beyond the cutoff allowed is a missed budget that names the cutoff it needs") {
   // Closed form: a TMSV truncated at N per mode loses lambda^{2(N+1)}, lambda = tanh r; the
   // figures' error sqrt(lost) <= 1e-10 needs N + 1 >= ln 1e-10 / ln lambda = 1151.2 for r = ln 10.
-  PointSpec p = point(r_20db, {}, {});
-  p.tolerance = 1e-10;
-  p.max_cutoff = 60;
+  PointSpec p = link_point_spec(r_20db, {}, {});
+  p.numerics.tolerance = 1e-10;
+  p.numerics.max_cutoff = 60;
   const PointResult r = evaluate(p);
   CHECK(r.status == Status::truncation_budget_missed);
   CHECK(r.cutoff == 60);
@@ -76,8 +76,8 @@ TEST_CASE("20 dB of squeezing through 10 dB of pure loss on each mode matches th
   // Different algorithm: the Gaussian layer (smallest partial-transpose symplectic eigenvalue,
   // Braunstein-Kimble fidelity of the covariance matrix).
   const link::Channel loss{0.1, 0.0};
-  PointSpec p = point(r_20db, loss, loss);
-  p.tolerance = 1e-8;
+  PointSpec p = link_point_spec(r_20db, loss, loss);
+  p.numerics.tolerance = 1e-8;
   const PointResult r = evaluate(p);
   REQUIRE(r.status == Status::ok);
   MESSAGE("20 dB, 10 dB loss: cutoff " << r.cutoff << ", E_N " << r.log_negativity << " vs "
@@ -92,7 +92,7 @@ TEST_CASE("a 1e5-photon bath coupled in by 1e-9 adds 1e-4 photons and the figure
   // Added noise (1 - tau) n_E = 1e-4 photons: below the entanglement-breaking threshold
   // tau / (1 - tau) (closed form), so E_N > 0; the values come from the Gaussian layer.
   const link::Channel hot{1.0 - 1e-9, 1e5};
-  const PointResult r = evaluate(point(0.5, {}, hot));
+  const PointResult r = evaluate(link_point_spec(0.5, {}, hot));
   REQUIRE(r.status == Status::ok);
   CHECK(std::abs(r.log_negativity - gaussian_log_negativity(0.5, {}, hot)) < 1e-6);
   CHECK(std::abs(r.fidelity - gaussian_fidelity(0.5, {}, hot)) < 1e-6);
@@ -104,11 +104,11 @@ TEST_CASE("a 1e5-photon bath at transmissivity 0.5 swamps the cutoff: a missed b
   // Mode b holds (1 - tau) n_E = 5e4 photons; no cutoff the memory allows holds it. The state
   // is separable (closed form: n_E >= tau / (1 - tau)), which the Gaussian layer reports.
   const link::Channel hot{0.5, 1e5};
-  PointSpec p = point(0.5, {}, hot);
-  p.max_cutoff = 40;
+  PointSpec p = link_point_spec(0.5, {}, hot);
+  p.numerics.max_cutoff = 40;
   const PointResult r = evaluate(p);
   CHECK(r.status == Status::truncation_budget_missed);
-  CHECK(r.cutoff_needed > p.max_cutoff);
+  CHECK(r.cutoff_needed > p.numerics.max_cutoff);
   check_ranges(r);
   CHECK(gaussian_log_negativity(0.5, {}, hot) == 0.0);
 }
@@ -117,7 +117,7 @@ TEST_CASE("transmissivity 1e-9 into a 0.01-photon bath on a one-way link leaves 
   // Closed form: a thermal-loss channel on one mode breaks entanglement iff n_E >= tau / (1 - tau)
   // (Holevo, Probl. Inf. Transm. 44, 171 (2008); from memory), here 0.01 >= 1e-9.
   const link::Channel far{1e-9, 0.01};
-  const PointResult r = evaluate(point(0.5, {}, far));
+  const PointResult r = evaluate(link_point_spec(0.5, {}, far));
   REQUIRE(r.status == Status::ok);
   CHECK(std::abs(r.log_negativity) < 1e-12);  // 0 up to the eigen-solver's round-off
   CHECK(std::abs(r.negativity) < 1e-12);
@@ -128,7 +128,7 @@ TEST_CASE("transmissivity 1e-9 into a 0.01-photon bath on a one-way link leaves 
 TEST_CASE("transmissivity 1e-9 without a bath keeps a tiny entanglement equal to the Gaussian layer's") {
   // Closed form: pure loss never breaks the entanglement of a TMSV (n_E = 0 < tau / (1 - tau)).
   const link::Channel far{1e-9, 0.0};
-  const PointResult r = evaluate(point(0.5, {}, far));
+  const PointResult r = evaluate(link_point_spec(0.5, {}, far));
   REQUIRE(r.status == Status::ok);
   const double g = gaussian_log_negativity(0.5, {}, far);
   MESSAGE("pure loss 1e-9: E_N " << r.log_negativity << " vs Gaussian " << g);
@@ -142,7 +142,7 @@ TEST_CASE("a counter of efficiency 0 heralds only dark counts: P = p, every hera
   // (on/off POVM 1 - (1 - p)(1 - eta)^k, Kitagawa et al., PRA 73, 042310 (2006)), so the state
   // after the herald is the input after the tap's loss T, compared with the Gaussian layer.
   const double r0 = 0.5, t = 0.9, dark = 1e-3;
-  PointSpec p = point(r0, {}, {});
+  PointSpec p = link_point_spec(r0, {}, {});
   p.counters = {counter(CounterKind::threshold, 0.0, dark)};
   p.steps.push_back(tap_b(t));
   const PointResult r = evaluate(p);
@@ -162,7 +162,7 @@ TEST_CASE("a counter of efficiency 0 heralds only dark counts: P = p, every hera
 }
 
 TEST_CASE("a counter of efficiency 0 without dark counts never heralds: a status, not a number") {
-  PointSpec p = point(0.5, {}, {});
+  PointSpec p = link_point_spec(0.5, {}, {});
   p.counters = {counter(CounterKind::threshold, 0.0, 0.0)};
   p.steps.push_back(tap_b(0.9));
   const PointResult r = evaluate(p);
@@ -176,7 +176,7 @@ TEST_CASE("a counter of efficiency 1 without dark counts gives the closed-form h
   // threshold click: 1 - sum p_n T^n = 1 - (1 - l^2) / (1 - l^2 T);
   // exactly one count: sum p_n n T^{n-1} (1 - T) = (1 - l^2) l^2 (1 - T) / (1 - l^2 T)^2.
   const double r0 = 0.5, t = 0.9, l2 = std::pow(std::tanh(r0), 2);
-  PointSpec p = point(r0, {}, {});
+  PointSpec p = link_point_spec(r0, {}, {});
   p.counters = {counter(CounterKind::threshold, 1.0, 0.0)};
   p.steps.push_back(tap_b(t));
   const PointResult r = evaluate(p);
@@ -198,7 +198,7 @@ TEST_CASE("a dark-click probability of 1 makes the click certain: P = 1 and the 
   // says nothing: the state is the input after the tap's loss T (Gaussian layer). The herald is
   // genuine when a photon was detected too: 1 - FHF = 1 - (1 - l^2) / (1 - l^2 (1 - (1 - T) eta)).
   const double r0 = 0.5, t = 0.9, eta = 0.5, l2 = std::pow(std::tanh(r0), 2);
-  PointSpec p = point(r0, {}, {});
+  PointSpec p = link_point_spec(r0, {}, {});
   p.counters = {counter(CounterKind::threshold, eta, 1.0)};
   p.steps.push_back(tap_b(t));
   const PointResult r = evaluate(p);
@@ -210,7 +210,7 @@ TEST_CASE("a dark-click probability of 1 makes the click certain: P = 1 and the 
   check_ranges(r);
 
   // The no-click herald then never fires (closed form: (1 - p) (1 - eta)^k = 0).
-  p.steps.back().counts = 0;
+  p.steps.back().set("counts", 0);
   const PointResult none = evaluate(p);
   CHECK(none.status == Status::herald_below_roundoff);
   CHECK(none.success_probability == 0.0);

@@ -6,11 +6,14 @@
 #include "heraldry/fock.hpp"
 #include "heraldry/gaussian.hpp"
 #include "heraldry/measures.hpp"
+#include "heraldry/point.hpp"
 #include "heraldry/steps.hpp"
 #include "steps/detail.hpp"
+#include "test_core_steps_support.hpp"
 
 using namespace heraldry;
 using namespace heraldry::steps;
+using namespace heraldry::point;
 
 namespace {
 
@@ -109,11 +112,10 @@ TEST_CASE("the physical noiseless amplifier g^(n-N) Pi_N on TMSV has the closed-
   const double p = (1 - l * l) * std::pow(g, -2.0 * big_n) * (1 - std::pow(g * l, 2.0 * big_n + 2)) / (1 - g * g * l * l);
   CHECK(p == doctest::Approx(0.0115986493).epsilon(1e-8));
   fock::Workspace work;
-  const PointSpec point;
-  detail::StepContext context{point, Weighting::full, work};
-  StepSpec step;
-  step.kind = StepKind::amplify, step.mode = Mode::B, step.gain = g, step.max_photons = big_n;
-  detail::apply_step(st, step, context);
+  StepContext context;
+  context.work = &work;
+  const StepSpec step = make("amplify", Mode::B, {{"gain", g}, {"max_photons", big_n}});
+  apply(st, step, context);
   CHECK(st.trace() == doctest::Approx(p).epsilon(1e-12));
   std::vector<double> c;
   for (int n = 0; n <= big_n; ++n) c.push_back(std::pow(g * l, n));
@@ -190,27 +192,33 @@ TEST_CASE("the sector and dense engines agree to 1e-12 on every step") {
   // engine-vs-engine: same Kraus sets on the U(1) blocks and on the plain matrix.
   const int cutoff = 12;
   const auto form = gaussian::apply(gaussian::tmst(0.5, 0.05), Mode::B, {0.9, 0.1});
-  PointSpec point;
-  point.channel_a = {0.97, 0.02};
-  point.channel_b = {0.9, 3.0};
-  point.counters = {{CounterKind::threshold, 0.6, 1e-3, 1e-6, 0.0}, {CounterKind::resolving, 0.8, 0.02, 1e-6, 0.0}};
-  std::vector<StepSpec> all(7);
-  all[0].kind = StepKind::link;
-  all[1].kind = StepKind::tap, all[1].mode = Mode::A, all[1].transmissivity = 0.9, all[1].counter = 0;
-  all[2].kind = StepKind::add, all[2].mode = Mode::B, all[2].squeezing = 0.2, all[2].counter = 1, all[2].counts = 1;
-  all[3].kind = StepKind::amplify, all[3].mode = Mode::A, all[3].gain = 1.3, all[3].max_photons = 8;
-  all[4].kind = StepKind::scissors, all[4].mode = Mode::B, all[4].gain = 1.2, all[4].counter = 0,
-  all[4].photon_source_efficiency = 0.9;
-  all[5].kind = StepKind::loss, all[5].mode = Mode::A, all[5].transmissivity = 0.8, all[5].bath_photons = 0.5;
-  all[6].kind = StepKind::tap, all[6].mode = Mode::B, all[6].transmissivity = 0.7, all[6].counter = 1, all[6].counts = 2;
+  const std::vector<CounterModel> counters = {{CounterKind::threshold, 0.6, 1e-3, 1e-6, 0.0},
+                                              {CounterKind::resolving, 0.8, 0.02, 1e-6, 0.0}};
+  const double frequency = 5e9;
+  const std::vector<StepSpec> all = {
+      make("link"),
+      make("tap", Mode::A, {{"transmissivity", 0.9}}, 0),
+      make("add", Mode::B, {{"squeezing", 0.2}}, 1),
+      make("amplify", Mode::A, {{"gain", 1.3}, {"max_photons", 8}}),
+      make("scissors", Mode::B, {{"gain", 1.2}, {"photon_source_efficiency", 0.9}}, 0),
+      // a loss at the temperature whose Planck occupation at 5 GHz is 0.5 photons
+      make("loss", Mode::A, {{"transmissivity", 0.8}, {"temperature_k", steps_test::temperature_for_occupation(0.5, frequency)}}),
+      make("tap", Mode::B, {{"transmissivity", 0.7}, {"counts", 2}}, 1),
+  };
   for (const auto& step : all) {
-    CAPTURE(to_string(step.kind));
+    CAPTURE(step.type->name);
     auto sector = fock::sector_state(form, cutoff);
     auto dense = fock::dense_state(form, cutoff);
     fock::Workspace w1, w2;
-    detail::StepContext c1{point, Weighting::full, w1}, c2{point, Weighting::full, w2};
-    detail::apply_step(sector, step, c1);
-    detail::apply_step(dense, step, c2);
+    StepContext c1, c2;
+    c1.counter = c2.counter = step.counter >= 0 ? &counters[static_cast<std::size_t>(step.counter)] : nullptr;
+    c1.frequency_hz = c2.frequency_hz = frequency;
+    c1.link_a = c2.link_a = {0.97, 0.02};
+    c1.link_b = c2.link_b = {0.9, 3.0};
+    c1.work = &w1;
+    c2.work = &w2;
+    apply(sector, step, c1);
+    apply(dense, step, c2);
     const auto converted = fock::to_dense(sector);
     CHECK((converted.matrix() - dense.matrix()).cwiseAbs().maxCoeff() < 1e-12);
     CHECK(sector.truncation_loss() == doctest::Approx(dense.truncation_loss()).epsilon(1e-12));

@@ -5,27 +5,27 @@
 
 #include "heraldry/fock.hpp"
 #include "heraldry/gaussian.hpp"
+#include "heraldry/point.hpp"
 #include "heraldry/steps.hpp"
 #include "test_core_steps_support.hpp"
 
 using namespace heraldry;
 using namespace heraldry::steps;
+using namespace heraldry::point;
 
 namespace {
 
-StepSpec link_step() { return StepSpec{}; }
+StepSpec link_step() { return make("link"); }
 
 StepSpec tap(Mode mode, double t, int counter, int counts = 1) {
-  StepSpec s;
-  s.kind = StepKind::tap, s.mode = mode, s.transmissivity = t, s.counter = counter, s.counts = counts;
-  return s;
+  return make("tap", mode, {{"transmissivity", t}, {"counts", counts}}, counter);
 }
 
 PointSpec tmsv_point(double r) {
   PointSpec p;
-  p.squeezing_r = r;
+  p.source.squeezing_r = r;
   p.steps = {link_step()};
-  p.tolerance = 1e-20;  // E_N and F carry ~2 sqrt(tolerance) of truncation error
+  p.numerics.tolerance = 1e-20;  // E_N and F carry ~2 sqrt(tolerance) of truncation error
   return p;
 }
 
@@ -50,14 +50,14 @@ TEST_CASE("photon subtraction with real counters matches the generating-function
   for (const auto& row : table.rows) {
     CAPTURE(row.at("case"));
     PointSpec p;
-    p.squeezing_r = steps_test::num(row, "r");
-    p.thermal_photons = steps_test::num(row, "thermal_photons");
+    p.source.squeezing_r = steps_test::num(row, "r");
+    p.source.thermal_photons = steps_test::num(row, "thermal_photons");
     p.channel_b = {steps_test::num(row, "loss_tau_b"), steps_test::num(row, "loss_bath_b")};
     p.counters = {{row.at("kind") == "threshold" ? CounterKind::threshold : CounterKind::resolving,
                    steps_test::num(row, "eta"), steps_test::num(row, "dark"), 1e-6, 0.0}};
     p.steps = {link_step(), tap(Mode::A, steps_test::num(row, "T"), 0)};
     if (row.at("sides") == "two") p.steps.push_back(tap(Mode::B, steps_test::num(row, "T"), 0));
-    p.tolerance = 1e-16;  // E_N and F then carry ~2 sqrt(1e-16) = 2e-8 of truncation error
+    p.numerics.tolerance = 1e-16;  // E_N and F then carry ~2 sqrt(1e-16) = 2e-8 of truncation error
     const PointResult r = evaluate(p);
     REQUIRE(r.status == Status::ok);
     CHECK(r.truncation_error <= 1e-16);
@@ -96,9 +96,9 @@ TEST_CASE("without distillation steps the Fock evaluation reproduces the Gaussia
   // F = 2/(2 + a + b - 2c) = 0.7017178606 (closed forms on the covariance matrix, Vidal & Werner,
   // PRA 65, 032314 (2002); Braunstein & Kimble, PRL 80, 869 (1998)).
   PointSpec p = tmsv_point(0.5);
-  p.thermal_photons = 0.02;
+  p.source.thermal_photons = 0.02;
   p.channel_b = {0.9, 0.1};
-  p.tolerance = 1e-20;  // state error ~ 2 sqrt(tolerance) = 2e-10
+  p.numerics.tolerance = 1e-20;  // state error ~ 2 sqrt(tolerance) = 2e-10
   const auto form = gaussian::apply(gaussian::tmst(0.5, 0.02), Mode::B, {0.9, 0.1});
   const PointResult r = evaluate(p);
   REQUIRE(r.status == Status::ok);
@@ -161,16 +161,14 @@ TEST_CASE("the physical noiseless amplifier through the evaluator: P, E_N and th
   // g = 1.5, N = 6 on mode B of TMSV r = 0.5: P = (1-l^2) g^{-2N}[1-(g l)^{2N+2}]/(1-g^2 l^2) =
   // 0.0115986493, E_N = 2.241934, cut weight l^{2(N+1)} (closed forms).
   PointSpec p = tmsv_point(0.5);
-  StepSpec amp;
-  amp.kind = StepKind::amplify, amp.mode = Mode::B, amp.gain = 1.5, amp.max_photons = 6;
-  p.steps.push_back(amp);
+  p.steps.push_back(make("amplify", Mode::B, {{"gain", 1.5}, {"max_photons", 6}}));
   const PointResult r = evaluate(p);
   REQUIRE(r.status == Status::ok);
   CHECK(r.success_probability == doctest::Approx(0.0115986493).epsilon(1e-8));
   CHECK(r.log_negativity == doctest::Approx(2.241934).epsilon(1e-6));
   CHECK(r.amplifier_cut_fraction == doctest::Approx(std::pow(std::tanh(0.5), 14)).epsilon(1e-9));
   // Ideal form: TMSV(g l), E_N = log2[(1 + x)/(1 - x)], x = g l (Ralph & Lund 2009).
-  p.steps.back().max_photons = 0;
+  p.steps.back().set("max_photons", 0);
   const PointResult ideal = evaluate(p);
   REQUIRE(ideal.status == Status::ok);
   const double x = 1.5 * std::tanh(0.5);
@@ -180,12 +178,12 @@ TEST_CASE("the physical noiseless amplifier through the evaluator: P, E_N and th
 
 TEST_CASE("the automatic cutoff raises the Gaussian estimate until the heralded state meets the tolerance") {
   PointSpec p = tmsv_point(0.7);
-  p.thermal_photons = 0.02;
+  p.source.thermal_photons = 0.02;
   p.channel_b = {0.8, 0.3};
   p.counters = {{CounterKind::threshold, 0.6, 1e-4, 1e-6, 0.0}};
   p.steps = {link_step(), tap(Mode::A, 0.95, 0), tap(Mode::B, 0.95, 0)};
   for (double tol : {1e-6, 1e-10}) {
-    p.tolerance = tol;
+    p.numerics.tolerance = tol;
     const PointResult r = evaluate(p);
     REQUIRE(r.status == Status::ok);
     CHECK(r.truncation_error <= tol);
@@ -201,27 +199,27 @@ TEST_CASE("a memory bound too small for the tolerance gives truncation_budget_mi
   PointSpec p = tmsv_point(0.7);
   p.counters = {{CounterKind::threshold, 0.6, 1e-4, 1e-6, 0.0}};
   p.steps = {link_step(), tap(Mode::A, 0.95, 0), tap(Mode::B, 0.95, 0)};
-  p.tolerance = 1e-10;
+  p.numerics.tolerance = 1e-10;
   const PointResult full = evaluate(p);
   REQUIRE(full.status == Status::ok);
-  p.max_memory_bytes = fock::memory_bytes_for(fock::Engine::sector, 12);
+  p.numerics.max_memory_bytes = fock::memory_bytes_for(fock::Engine::sector, 12);
   const PointResult r = evaluate(p);
   CHECK(r.status == Status::truncation_budget_missed);
   CHECK(r.cutoff == 12);
   CHECK(r.cutoff_needed > 12);
-  CHECK(r.truncation_error > p.tolerance);
+  CHECK(r.truncation_error > p.numerics.tolerance);
   CHECK(all_finite(r));
   MESSAGE("memory-bound point: cutoff " << r.cutoff << ", needed " << r.cutoff_needed << " (unbounded run: "
                                         << full.cutoff << ")");
   // A fixed cutoff that misses the tolerance reports an estimate of the cutoff it needs.
-  p.max_memory_bytes = 1e12;
-  p.cutoff = 14;
+  p.numerics.max_memory_bytes = 1e12;
+  p.numerics.cutoff = 14;
   const PointResult fixed = evaluate(p);
   CHECK(fixed.status == Status::truncation_budget_missed);
   CHECK(fixed.cutoff == 14);
   CHECK(fixed.cutoff_needed > 14);
-  p.cutoff = fixed.cutoff_needed + 2;
-  CHECK(evaluate(p).truncation_error <= 10 * p.tolerance);
+  p.numerics.cutoff = fixed.cutoff_needed + 2;
+  CHECK(evaluate(p).truncation_error <= 10 * p.numerics.tolerance);
 }
 
 TEST_CASE("inconsistent points are input errors") {
@@ -229,8 +227,8 @@ TEST_CASE("inconsistent points are input errors") {
   p.steps.push_back(tap(Mode::A, 0.9, 3));  // no such counter
   CHECK_THROWS_AS(evaluate(p), InputError);
   p = tmsv_point(0.5);
-  p.cutoff = 200;
-  p.max_memory_bytes = 1e6;  // a fixed cutoff that cannot fit
+  p.numerics.cutoff = 200;
+  p.numerics.max_memory_bytes = 1e6;  // a fixed cutoff that cannot fit
   CHECK_THROWS_AS(evaluate(p), InputError);
   p = tmsv_point(-0.1);
   CHECK_THROWS_AS(evaluate(p), InputError);
@@ -243,21 +241,22 @@ TEST_CASE("inconsistent points are input errors") {
 TEST_CASE("the sector and dense evaluators agree on a protocol using every step") {
   // engine-vs-engine at a fixed cutoff of 10, steps before and after the link.
   PointSpec p;
-  p.squeezing_r = 0.6;
-  p.thermal_photons = 0.01;
+  p.source.squeezing_r = 0.6;
+  p.source.thermal_photons = 0.01;
   p.channel_a = {0.98, 0.05};
   p.channel_b = {0.9, 2.0};
   p.counters = {{CounterKind::threshold, 0.7, 1e-3, 1e-6, 2e-6}, {CounterKind::resolving, 0.9, 0.01, 1e-6, 0.0}};
-  StepSpec add, amp, sc, loss;
-  add.kind = StepKind::add, add.mode = Mode::A, add.squeezing = 0.15, add.counter = 1;
-  amp.kind = StepKind::amplify, amp.mode = Mode::B, amp.gain = 1.2, amp.max_photons = 5;
-  sc.kind = StepKind::scissors, sc.mode = Mode::A, sc.gain = 1.3, sc.counter = 0, sc.photon_source_efficiency = 0.95;
-  loss.kind = StepKind::loss, loss.mode = Mode::B, loss.transmissivity = 0.95, loss.bath_photons = 0.1;
+  const StepSpec add = make("add", Mode::A, {{"squeezing", 0.15}}, 1);
+  const StepSpec amp = make("amplify", Mode::B, {{"gain", 1.2}, {"max_photons", 5}});
+  const StepSpec sc = make("scissors", Mode::A, {{"gain", 1.3}, {"photon_source_efficiency", 0.95}}, 0);
+  // a loss at the temperature whose Planck occupation at the carrier is 0.1 photons
+  const StepSpec loss = make("loss", Mode::B,
+                             {{"transmissivity", 0.95}, {"temperature_k", steps_test::temperature_for_occupation(0.1, p.source.frequency_hz)}});
   p.steps = {tap(Mode::A, 0.9, 0), link_step(), add, tap(Mode::B, 0.92, 1), amp, loss, sc};
-  p.cutoff = 10;
-  p.tolerance = 0.5;
+  p.numerics.cutoff = 10;
+  p.numerics.tolerance = 0.5;
   const PointResult s = evaluate(p);
-  p.engine = fock::Engine::dense;
+  p.numerics.engine = fock::Engine::dense;
   const PointResult d = evaluate(p);
   CHECK(s.status == d.status);
   CHECK(s.success_probability == doctest::Approx(d.success_probability).epsilon(1e-12));

@@ -4,11 +4,13 @@
 #include <cmath>
 #include <doctest/doctest.h>
 
+#include "heraldry/point.hpp"
 #include "heraldry/steps.hpp"
 #include "test_core_steps_support.hpp"
 
 using namespace heraldry;
 using namespace heraldry::steps;
+using namespace heraldry::point;
 
 namespace {
 CounterModel threshold(double eta, double p) { return {CounterKind::threshold, eta, p, 1e-6, 0.0}; }
@@ -78,10 +80,8 @@ TEST_CASE("the trial rate is bounded by the bandwidth and by every counter's gat
   CHECK(trial_rate_hz(2e6, {}) == doctest::Approx(2e6));
   CHECK(trial_rate_hz(2e6, {fast}) == doctest::Approx(2e6));
   CHECK(trial_rate_hz(2e6, {fast, slow}) == doctest::Approx(1e5));
-  std::vector<StepSpec> steps(3);
-  steps[0].kind = StepKind::link;
-  steps[1].kind = StepKind::tap, steps[1].counter = 1;
-  steps[2].kind = StepKind::tap, steps[2].counter = 1;
+  const std::vector<StepSpec> steps = {make("link"), make("tap", Mode::B, {{"transmissivity", 0.9}}, 1),
+                                       make("tap", Mode::A, {{"transmissivity", 0.9}}, 1)};
   CHECK(counters_used(steps, {fast, slow}).size() == 1);
   CHECK(trial_rate_hz(2e6, counters_used(steps, {fast, slow})) == doctest::Approx(1e5));
 }

@@ -10,8 +10,16 @@
 #include <vector>
 
 #include "heraldry/fock.hpp"
+#include "heraldry/link.hpp"
+#include <cmath>
 
 namespace steps_test {
+
+/// The temperature at which a mode of frequency f holds n thermal photons: Planck inverted,
+/// T = h f / (k_B ln(1 + 1/n)) (closed form).
+inline double temperature_for_occupation(double n, double frequency_hz) {
+  return heraldry::link::planck_h * frequency_hz / (heraldry::link::boltzmann_k * std::log1p(1.0 / n));
+}
 
 /// Rows of a reference CSV (lines starting with '#' are the header comment), keyed by column.
 struct Table {

@@ -53,7 +53,7 @@ TEST_CASE("run refuses before any work an auto cutoff whose states exceed max_me
   CHECK(o.code == 2);
   CHECK(o.output.find("key 'numerics.max_memory_mb' = 0.010000") != std::string::npos);
   CHECK(o.output.find("needs cutoff") != std::string::npos);
-  CHECK(o.output.find("MB per state") != std::string::npos);
+  CHECK(o.output.find("MiB per state") != std::string::npos);
   CHECK(o.output.find("heraldry run:") == std::string::npos);  // refused before the run started
   CHECK_FALSE(fs::exists(dir / "r.h5"));
   CHECK_FALSE(fs::exists(dir / "r.h5.partial"));
@@ -61,13 +61,13 @@ TEST_CASE("run refuses before any work an auto cutoff whose states exceed max_me
 
 TEST_CASE("run refuses before any work a fixed dense cutoff whose state exceeds max_memory_mb") {
   // Memory of a dense state, 8 (N+1)^4 bytes (closed form: (N+1)^2 x (N+1)^2 doubles):
-  // 8 x 401^4 B = 2.0686e11 B = 197,273 MB (MB = 2^20 B) for N = 400.
+  // 8 x 401^4 B = 2.0686e11 B = 197,273 MiB (2^20 B) for N = 400.
   const fs::path dir = scratch("memory_fixed");
   const std::string sc = write_scenario(dir, plain_counter, "engine = \"dense\"\ncutoff = 400");
   const Outcome o = run_tool("run \"" + sc + "\" -o \"" + (dir / "r.h5").string() + "\"");
   CAPTURE(o.output);
   CHECK(o.code == 2);
-  CHECK(o.output.find("cutoff 400 needs 1.973e+05 MB per state") != std::string::npos);
+  CHECK(o.output.find("cutoff 400 needs 1.973e+05 MiB per state") != std::string::npos);
   CHECK_FALSE(fs::exists(dir / "r.h5"));
 }
 

@@ -8,6 +8,7 @@
 #include <filesystem>
 #include <string>
 
+#include "heraldry/ranks.hpp"
 #include "heraldry/run.hpp"
 #include "heraldry/scenario.hpp"
 
@@ -15,13 +16,13 @@ namespace fs = std::filesystem;
 using namespace heraldry;
 
 TEST_CASE("without an MPI launcher a rank session is rank 0 of 1 and the run records one rank") {
-  const run::RankSession session;
+  const ranks::Session session;
   CHECK(session.ranks().rank == 0);
   CHECK(session.ranks().size == 1);
 
   const scenario::Scenario demo = scenario::demo();
   bool loaded = false;
-  const auto shared = run::shared_scenario([&] {
+  const auto shared = ranks::shared_scenario([&] {
     loaded = true;
     return demo;
   });

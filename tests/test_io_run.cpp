@@ -123,7 +123,7 @@ TEST_CASE("a run writes every dataset of the layout with units, and its values e
   const auto P = read_doubles(f, "/protocols/subtract both/success_probability");
   for (std::size_t flat : {0u, 7u, 17u}) {
     const auto idx = plan.protocols[1].unflatten(flat);
-    const steps::PointResult r = steps::evaluate(sweep::resolve(sc, plan, 1, idx));
+    const point::PointResult r = point::evaluate(sweep::resolve(sc, plan, 1, idx));
     CHECK(en[flat] == r.log_negativity);
     CHECK(P[flat] == r.success_probability);
   }
@@ -267,7 +267,7 @@ TEST_CASE("the midpoint relay baseline is Gaussian swapping of two pairs over ha
   const double r = squeezing_parameter_from_db(5.0), k = 2 * 0.01 + 1;
   const double a = k * std::cosh(2 * r), c0 = k * std::sinh(2 * r);
   const double b = tau * a + (1 - tau) * (2 * n_line + 1), c = std::sqrt(tau) * c0;
-  const gaussian::StandardForm relay = run::relay_state(sc, d);
+  const gaussian::StandardForm relay = point::relay_state(sweep::source_of(sc), sc.link.model, d);
   CHECK(relay.a == doctest::Approx(a - c * c / (2 * b)).epsilon(1e-12));
   CHECK(relay.b == doctest::Approx(a - c * c / (2 * b)).epsilon(1e-12));
   CHECK(relay.c == doctest::Approx(c * c / (2 * b)).epsilon(1e-12));
@@ -275,7 +275,8 @@ TEST_CASE("the midpoint relay baseline is Gaussian swapping of two pairs over ha
   std::string lossless = small_scenario;
   lossless.replace(lossless.find("loss_db_per_m = 0.01"), 20, "loss_db_per_m = 0.00");
   lossless.replace(lossless.find("thermal_photons = 0.01"), 22, "thermal_photons = 0.00");
-  const gaussian::StandardForm ideal = run::relay_state(scenario::parse(lossless, "lossless.toml"), d);
+  const scenario::Scenario ideal_sc = scenario::parse(lossless, "lossless.toml");
+  const gaussian::StandardForm ideal = point::relay_state(sweep::source_of(ideal_sc), ideal_sc.link.model, d);
   CHECK(ideal.a == doctest::Approx(std::cosh(2 * std::atanh(std::pow(std::tanh(r), 2)))).epsilon(1e-12));
   // The run stores it beside the bare link.
   const fs::path dir = scratch("relay");
@@ -286,7 +287,7 @@ TEST_CASE("the midpoint relay baseline is Gaussian swapping of two pairs over ha
   fs::remove_all(dir);
   REQUIRE(s.data.link.relay_log_negativity.size() == sc.link.distances_m.size());
   CHECK(s.data.link.relay_log_negativity[3] ==
-        doctest::Approx(gaussian::log_negativity(run::relay_state(sc, sc.link.distances_m[3]))).epsilon(1e-14));
+        doctest::Approx(gaussian::log_negativity(point::relay_state(sweep::source_of(sc), sc.link.model, sc.link.distances_m[3]))).epsilon(1e-14));
   REQUIRE(s.data.verdict->relay_log_negativity.has_value());
 }
 
@@ -332,7 +333,7 @@ tolerance = 1e-7
   std::size_t crossings = 0;
   for (std::size_t row = 0; row < 2; ++row) {
     for (std::size_t j = 0; j + 1 < 4; ++j) {
-      const double g0 = pv.slice_log_negativity[row * 4 + j] - bare, g1 = pv.slice_log_negativity[row * 4 + j + 1] - bare;
+      const double g0 = pv.slice[row * 4 + j].log_negativity - bare, g1 = pv.slice[row * 4 + j + 1].log_negativity - bare;
       if (!(g0 > 0.0 && g1 <= 0.0)) continue;
       ++crossings;
       // The map's contour passes between these two cells: the true zero of the gain, found by
@@ -342,7 +343,7 @@ tolerance = 1e-7
         sweep::Plan pinned = plan;
         pinned.protocols[0].axes[2].values = {rate};
         const std::vector<std::size_t> idx{0, row, 0};
-        const steps::PointResult r = steps::evaluate(sweep::resolve(sc, pinned, 0, idx, 40.0));
+        const point::PointResult r = point::evaluate(sweep::resolve(sc, pinned, 0, idx, 40.0));
         REQUIRE(r.status == Status::ok);
         return r.log_negativity - bare;
       };

@@ -62,7 +62,7 @@ TEST_CASE("the built-in demo parses and is converted to SI units") {
   // 1 GHz = 1e9 Hz, 1 MHz = 1e6 Hz (SI prefixes, SI Brochure 9th ed., Table 7).
   CHECK(s.source.frequency_hz == rel(5.4e9, 1e-15));
   CHECK(s.source.bandwidth_hz == rel(2.0e6, 1e-15));
-  CHECK(s.source.squeezing_db == 6.0);
+  CHECK(s.source.squeezing_r == rel(squeezing_parameter_from_db(6.0), 1e-15));  // r = dB ln(10) / 20 (closed form)
   CHECK(s.source.thermal_photons == 0.02);
   CHECK(s.link.model.frequency_hz == s.source.frequency_hz);
   CHECK(s.link.model.medium == link::Medium::air);
@@ -97,17 +97,17 @@ TEST_CASE("the built-in demo parses and is converted to SI units") {
   REQUIRE(s.protocols.size() == 4);
   CHECK(s.protocols[0].name == "bare");
   REQUIRE(s.protocols[0].steps.size() == 1);
-  CHECK(s.protocols[0].steps[0].kind == StepKind::link);
+  CHECK(s.protocols[0].steps[0].type->name == "link");
   const Protocol& both = protocol_named(s, "subtract both");
   REQUIRE(both.steps.size() == 3);
-  CHECK(both.steps[1].kind == StepKind::tap);
+  CHECK(both.steps[1].type->name == "tap");
   CHECK(both.steps[1].mode == Mode::A);
   CHECK(both.steps[2].mode == Mode::B);
   CHECK(both.steps[1].counter == "lab");
-  CHECK(both.steps[1].counts == 1);
-  CHECK(both.steps[1].params.at("transmissivity").values == std::vector<double>{0.95});
+  CHECK(both.steps[1].param("counts").first() == 1);
+  CHECK(both.steps[1].param("transmissivity").values == std::vector<double>{0.95});
   // { from = 0.86, to = 0.98, points = 5 }: a swept tap, 0.03 apart (closed form).
-  const auto& swept = both.steps[2].params.at("transmissivity").values;
+  const auto& swept = both.steps[2].param("transmissivity").values;
   REQUIRE(swept.size() == 5);
   for (std::size_t i = 0; i < 5; ++i) CHECK(swept[i] == rel(0.86 + 0.03 * static_cast<double>(i), 1e-14));
   CHECK(both.steps[1].line > both.steps[0].line);
@@ -131,7 +131,7 @@ TEST_CASE("every shipped scenario in protocols/ parses with exactly one link ste
     REQUIRE_FALSE(s.protocols.empty());
     for (const auto& p : s.protocols)
       CHECK(std::count_if(p.steps.begin(), p.steps.end(),
-                          [](const Step& st) { return st.kind == StepKind::link; }) == 1);
+                          [](const Step& st) { return st.type->name == "link"; }) == 1);
     CHECK_FALSE(s.link.distances_m.empty());
   }
 }
@@ -148,10 +148,10 @@ TEST_CASE("the cryogenic-line scenario is a 30 m line at 0.005 dB per metre") {
   CHECK_FALSE(s.link.model.antenna.has_value());
   const Protocol& far = protocol_named(s, "subtract at the far end");
   REQUIRE(far.steps.size() == 3);
-  CHECK(far.steps[1].kind == StepKind::loss);
+  CHECK(far.steps[1].type->name == "loss");
   // 0.2 dB of loss: 10^(-0.02) = 0.954992586021436 (closed form).
-  CHECK(far.steps[1].params.at("transmissivity").first() == rel(0.954992586021436, 1e-14));
-  CHECK(far.steps[1].params.at("temperature_k").first() == 0.05);
+  CHECK(far.steps[1].param("transmissivity").first() == rel(0.954992586021436, 1e-14));
+  CHECK(far.steps[1].param("temperature_k").first() == 0.05);
   CHECK(s.find_counter("lambda")->reset_s == rel(4.0e-7, 1e-15));
 }
 
@@ -163,13 +163,13 @@ TEST_CASE("the subtraction scenario sweeps the tap and mixes threshold and resol
   CHECK_FALSE(r->dark_rate_hz.has_value());
   CHECK(r->dark_per_gate.first() == 0.030);
   const Protocol& swept = protocol_named(s, "subtract both, swept tap (threshold)");
-  const Param& t = swept.steps[1].params.at("transmissivity");
+  const Param& t = swept.steps[1].param("transmissivity");
   REQUIRE(t.swept());
   REQUIRE(t.values.size() == 20);
   // { from = 0.80, to = 0.99, points = 20 }: step 0.01 (closed form).
   for (std::size_t i = 0; i < 20; ++i)
     CHECK(t.values[i] == rel(0.80 + 0.01 * static_cast<double>(i), 1e-14));
-  CHECK(protocol_named(s, "subtract two from b").steps[1].counts == 2);
+  CHECK(protocol_named(s, "subtract two from b").steps[1].param("counts").first() == 2);
   CHECK(s.link.distances_m == std::vector<double>{0.5, 1.0, 2.0, 4.0});
 }
 
@@ -182,22 +182,22 @@ TEST_CASE("the amplifier scenario uses measured channels and therefore a single 
   CHECK(s.link.distances_m == std::vector<double>{0.0});
   CHECK(s.link.target_m == 0.0);
   const Step& amp = protocol_named(s, "amplify b (N = 6)").steps[1];
-  CHECK(amp.kind == StepKind::amplify);
-  CHECK(amp.max_photons == 6);
-  CHECK(amp.params.at("gain").values.size() == 10);
+  CHECK(amp.type->name == "amplify");
+  CHECK(amp.param("max_photons").first() == 6);
+  CHECK(amp.param("gain").values.size() == 10);
   const Step& sc = protocol_named(s, "scissors on b").steps[1];
-  CHECK(sc.kind == StepKind::scissors);
-  CHECK(sc.params.at("photon_source_efficiency").first() == 0.9);
-  CHECK(sc.params.at("gain").first() == 1.5);
+  CHECK(sc.type->name == "scissors");
+  CHECK(sc.param("photon_source_efficiency").first() == 0.9);
+  CHECK(sc.param("gain").first() == 1.5);
 }
 
 TEST_CASE("the addition scenario adds then subtracts on mode b") {
   const Scenario s = load(std::string(HERALDRY_SOURCE_DIR) + "/protocols/addition.toml");
   const Protocol& p = protocol_named(s, "add then subtract on b");
   REQUIRE(p.steps.size() == 3);
-  CHECK(p.steps[1].kind == StepKind::add);
-  CHECK(p.steps[2].kind == StepKind::tap);
-  CHECK(p.steps[1].params.at("squeezing").values.size() == 6);
+  CHECK(p.steps[1].type->name == "add");
+  CHECK(p.steps[2].type->name == "tap");
+  CHECK(p.steps[1].param("squeezing").values.size() == 6);
   // Lescanne et al., PRX 10, 021038 (2020): 1400 /s; over 10 us, p = 1 - exp(-0.014)
   // = 1.390245574...e-2 (closed form).
   CHECK(s.find_counter("transmon")->dark_per_gate.first() == rel(1.39024557371381e-2, 1e-12));
@@ -218,20 +218,20 @@ TEST_CASE("ranges and lists expand inclusively, linearly or geometrically") {
   CHECK(s.link.target_m == 3.0);   // default: the largest distance
   CHECK(s.counters[0].efficiency.values == std::vector<double>{0.25, 0.5, 0.75});
   CHECK(s.counters[0].dark_per_gate.values == std::vector<double>{0.0, 0.5, 2.0});
-  const Param& g = s.protocols[0].steps[1].params.at("gain");
+  const Param& g = s.protocols[0].steps[1].param("gain");
   REQUIRE(g.values.size() == 3);
   CHECK(g.values[0] == 1.0);
   CHECK(g.values[1] == rel(10.0, 1e-14));
   CHECK(g.values[2] == 100.0);
   CHECK(s.protocols[0].steps[1].mode == Mode::A);
-  CHECK(s.protocols[0].steps[1].max_photons == 3);
+  CHECK(s.protocols[0].steps[1].param("max_photons").first() == 3);
 
   const Scenario one = parse(scenario_with("kind = \"threshold\"\nefficiency = 1",
                                            "{ tap = \"b\", transmissivity = 1, counter = \"lab\" }",
                                            "distance_m = { from = 5, to = 5, points = 1 }\n"),
                              "one.toml");
   CHECK(one.link.distances_m == std::vector<double>{5.0});
-  CHECK_FALSE(one.protocols[0].steps[1].params.at("transmissivity").swept());
+  CHECK_FALSE(one.protocols[0].steps[1].param("transmissivity").swept());
 }
 
 TEST_CASE("a dark rate becomes a click probability for a threshold counter and a mean count for a resolving one") {
@@ -260,14 +260,14 @@ TEST_CASE("a loss given in dB is stored as the transmissivity 10^(-dB/10)") {
                                          "{ loss = \"a\", loss_db = [0, 3, 10] }", "distance_m = 1\n"),
                            "loss.toml");
   const Step& st = s.protocols[0].steps[1];
-  CHECK(st.kind == StepKind::loss);
-  const auto& t = st.params.at("transmissivity").values;
+  CHECK(st.type->name == "loss");
+  const auto& t = st.param("transmissivity").values;
   REQUIRE(t.size() == 3);
   CHECK(t[0] == 1.0);
   CHECK(t[1] == rel(0.501187233627272, 1e-14));   // 10^(-0.3), closed form
   CHECK(t[2] == rel(0.1, 1e-15));                 // 10 dB, closed form
-  CHECK(st.params.at("temperature_k").values == std::vector<double>{0.0});
-  CHECK_FALSE(st.params.count("loss_db"));
+  CHECK(st.param("temperature_k").values == std::vector<double>{0.0});
+  CHECK(st.type->param_index("loss_db") < 0);
 }
 
 TEST_CASE("integers are accepted where numbers are expected and defaults fill the optional tables") {
@@ -283,7 +283,7 @@ TEST_CASE("integers are accepted where numbers are expected and defaults fill th
   CHECK(s.link.model.air.fixed_db_per_km == 0.0);
   CHECK(s.link.model.air.temperature_k == 273.15);   // SI Brochure, 9th ed., Sec. 2.3.1
   CHECK(s.link.model.air.pressure_hpa == 1013.25);   // default of link::Air
-  CHECK(s.protocols[0].steps[1].params.at("photon_source_efficiency").values == std::vector<double>{1.0});
+  CHECK(s.protocols[0].steps[1].param("photon_source_efficiency").values == std::vector<double>{1.0});
   CHECK(s.numerics.cutoff == 0);
   CHECK(s.numerics.engine == EngineKind::sector);
   CHECK(s.numerics.max_memory_mb == 4096.0);
@@ -307,13 +307,22 @@ TEST_CASE("numerics and output tables are read when given") {
   CHECK(*s.output.heralds_wanted == 1e6);
 }
 
-TEST_CASE("step kinds have their scenario names") {
-  CHECK(std::string(to_string(StepKind::link)) == "link");
-  CHECK(std::string(to_string(StepKind::tap)) == "tap");
-  CHECK(std::string(to_string(StepKind::add)) == "add");
-  CHECK(std::string(to_string(StepKind::amplify)) == "amplify");
-  CHECK(std::string(to_string(StepKind::scissors)) == "scissors");
-  CHECK(std::string(to_string(StepKind::loss)) == "loss");
+TEST_CASE("the step registry lists every kind once under its scenario name, and an unknown kind is none") {
+  std::vector<std::string> names;
+  for (const steps::StepType* t : steps::registry()) {
+    names.emplace_back(t->name);
+    CHECK(steps::find_step_type(t->name) == t);
+  }
+  CHECK(names == std::vector<std::string>{"link", "tap", "add", "amplify", "scissors", "loss"});
+  CHECK(steps::find_step_type("subtract") == nullptr);
+  CHECK(&steps::link_type() == steps::find_step_type("link"));
+  // Every kind that uses a counter is a heralded kind; every Gaussian kind has its channels.
+  for (const steps::StepType* t : steps::registry()) {
+    CAPTURE(t->name);
+    if (t->uses_counter) CHECK(t->role == steps::StepType::Role::herald);
+    CHECK((t->channels != nullptr) == (t->role != steps::StepType::Role::herald));
+    CHECK((t->apply_sector != nullptr) == (t->role == steps::StepType::Role::herald));
+  }
 }
 
 TEST_CASE("the edit distance is Levenshtein's and suggestions stay within max(2, len/3)") {

@@ -177,10 +177,10 @@ TEST_CASE("a tunable parameter takes the midpoint of its range in every other co
   const scenario::Scenario sc = scenario::parse(
       line_scenario("{ tune = [2.0, 8.0] }", subtraction("{ tune = [0.8, 0.9] }"), one_db, 1e-6), "mid.toml");
   // Closed form: (lo + hi) / 2.
-  CHECK(sc.source.squeezing_db == 5.0);
-  REQUIRE(sc.source.squeezing_db_tune.has_value());
-  CHECK(sc.source.squeezing_db_tune->first == 2.0);
-  const auto& t = sc.protocols[1].steps[2].params.at("transmissivity");
+  CHECK(sc.source.squeezing_r == doctest::Approx(squeezing_parameter_from_db(5.0)).epsilon(1e-15));
+  REQUIRE(sc.source.squeezing_r_tune.has_value());
+  CHECK(sc.source.squeezing_r_tune->first == doctest::Approx(squeezing_parameter_from_db(2.0)).epsilon(1e-15));
+  const auto& t = sc.protocols[1].steps[2].param("transmissivity");
   REQUIRE(t.values.size() == 1);
   CHECK(t.values[0] == doctest::Approx(0.85).epsilon(1e-15));
   REQUIRE(t.tune.has_value());
@@ -190,7 +190,7 @@ TEST_CASE("a tunable parameter takes the midpoint of its range in every other co
       line_scenario("3.0", "[[protocol]]\nname = \"l\"\nsteps = [\"link\", { loss = \"b\", loss_db = { tune = [1.0, 3.0] } }]\n",
                     one_db, 1e-6),
       "loss.toml");
-  const auto& lt = l.protocols[0].steps[1].params.at("transmissivity");
+  const auto& lt = l.protocols[0].steps[1].param("transmissivity");
   REQUIRE(lt.tune.has_value());
   CHECK(lt.tune->first == doctest::Approx(std::pow(10.0, -0.3)).epsilon(1e-14));
   CHECK(lt.tune->second == doctest::Approx(std::pow(10.0, -0.1)).epsilon(1e-14));

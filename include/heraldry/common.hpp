@@ -2,6 +2,7 @@
 #pragma once
 
 #include <cmath>
+#include <cstdio>
 #include <numbers>
 #include <stdexcept>
 #include <string>
@@ -19,6 +20,15 @@ inline const char* to_string(Mode m) { return m == Mode::A ? "a" : "b"; }
 inline double squeezing_parameter_from_db(double db) { return db * std::numbers::ln10 / 20.0; }
 inline double squeezing_db_from_parameter(double r) { return r * 20.0 / std::numbers::ln10; }
 
+/// A memory size in MiB (2^20 bytes) for messages, e.g. "5.5 MiB": the one unit of memory the
+/// tool prints and reads (`max_memory_mb` is in MiB too).
+inline std::string mebibytes(double bytes) {
+  char buf[48];
+  std::snprintf(buf, sizeof buf, "%.4g MiB", bytes / 1048576.0);
+  return buf;
+}
+inline constexpr double bytes_per_mebibyte = 1048576.0;
+
 /// Power ratio from dB of loss: 10^{-dB/10}.
 inline double transmissivity_from_db(double loss_db) { return std::pow(10.0, -loss_db / 10.0); }
 inline double loss_db_from_transmissivity(double t) { return -10.0 * std::log10(t); }
@@ -31,12 +41,13 @@ public:
              std::string hint = {})
       : std::runtime_error(format(file, line, key, value, expected, hint)),
         file_(std::move(file)), line_(line), key_(std::move(key)), value_(std::move(value)),
-        expected_(std::move(expected)) {}
+        expected_(std::move(expected)), hint_(std::move(hint)) {}
   const std::string& file() const { return file_; }
   int line() const { return line_; }
   const std::string& key() const { return key_; }
   const std::string& value() const { return value_; }
   const std::string& expected() const { return expected_; }
+  const std::string& hint() const { return hint_; }
 
 private:
   static std::string format(const std::string& file, int line, const std::string& key,
@@ -63,7 +74,7 @@ private:
   }
   std::string file_;
   int line_;
-  std::string key_, value_, expected_;
+  std::string key_, value_, expected_, hint_;
 };
 
 /// Outcome of a numerical evaluation; carried inside results, never thrown.

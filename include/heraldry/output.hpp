@@ -1,5 +1,5 @@
-// Results of a run and their HDF5 file (layout: DESIGN.md "HDF5 output"; every dataset carries
-// `units` and `description`). Files are written to a temporary name and renamed when complete,
+// Results of a run and their HDF5 file (layout: README "The result file"; every dataset carries
+// `units` and `description`; a protocol's datasets are the fields of point::result_fields()). Files are written to a temporary name and renamed when complete,
 // so a reader never sees a half-written file. A checkpoint is the same layout plus a `done`
 // mask per protocol, in RESULT.h5.partial.
 #pragma once
@@ -9,30 +9,20 @@
 #include <string>
 #include <vector>
 
+#include "heraldry/point.hpp"
 #include "heraldry/scenario.hpp"
-#include "heraldry/steps.hpp"
 #include "heraldry/sweep.hpp"
 #include "heraldry/verdict.hpp"
 
 namespace heraldry::output {
 
-/// The bare link at each distance of the grid (Gaussian layer).
-struct LinkTable {
-  std::vector<double> transmissivity_a, transmissivity_b, bath_photons_a, bath_photons_b;
-  std::vector<double> negativity, log_negativity, fidelity, plob_ebits, rci_ebits;
-  /// Baseline: a relay station at the midpoint (Gaussian entanglement swapping of two pairs,
-  /// each sending one mode over half the distance); empty for measured [link.direct] channels.
-  std::vector<double> relay_log_negativity, relay_fidelity;
-};
-
 struct ProtocolTable {
-  std::vector<steps::PointResult> points;   // flat index, distance slowest
-  std::vector<double> heralding_rate_hz;
+  std::vector<point::PointResult> points;   // flat index, distance slowest
   std::vector<std::uint8_t> done;
 };
 
 struct RunData {
-  LinkTable link;
+  point::LinkTable link;
   std::vector<ProtocolTable> protocols;
   std::optional<verdict::Verdict> verdict;
 };

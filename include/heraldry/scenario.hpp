@@ -2,7 +2,6 @@
 // typed and validated, in SI units. Only src/scenario knows the file format (TOML).
 #pragma once
 
-#include <map>
 #include <optional>
 #include <string>
 #include <string_view>
@@ -28,10 +27,10 @@ struct Param {
 
 struct Source {
   double frequency_hz = 5.0e9;
-  double squeezing_db = 6.0;            // squeezing parameter in dB: r = dB ln(10) / 20
-  /// `squeezing_db = { tune = [lo, hi] }`: the range `heraldry tune` explores; squeezing_db then
-  /// holds the midpoint (lo + hi) / 2 for every other command.
-  std::optional<std::pair<double, double>> squeezing_db_tune;
+  double squeezing_r = 0.0;             // squeezing parameter r, from `squeezing_db` (r = dB ln(10) / 20)
+  /// `squeezing_db = { tune = [lo, hi] }`: the range of r `heraldry tune` explores; squeezing_r
+  /// then holds the midpoint of the dB range for every other command.
+  std::optional<std::pair<double, double>> squeezing_r_tune;
   double thermal_photons = 0.0;         // per mode, at the source
   double bandwidth_hz = 1.0e6;          // mode rate; bounds the trial rate
 };
@@ -57,19 +56,17 @@ struct Counter {
   double reset_s = 0.0;                 // dead time after a gate
 };
 
-using StepKind = steps::StepKind;
-using steps::to_string;
-
-/// One step of a protocol. Parameters are keyed by their scenario names (e.g. "transmissivity",
-/// "gain", "squeezing", "photon_source_efficiency", "temperature_k") in SI units.
+/// One step of a protocol: its kind (an entry of the step registry), the mode it acts on, its
+/// counter's name (kinds that use one) and one Param per parameter of the kind's schema, in
+/// schema order and SI units (defaults filled in).
 struct Step {
-  StepKind kind = StepKind::link;
+  const steps::StepType* type = &steps::link_type();
   Mode mode = Mode::B;                  // the mode the step acts on (not used by link)
-  std::string counter;                  // tap, add, scissors: the name of a [counters.X] table
-  int counts = 1;                       // tap with a resolving counter: herald on exactly this many
-  int max_photons = 0;                  // amplify: the N of the physical realisation (0: ideal)
-  std::map<std::string, Param> params;
+  std::string counter;                  // kinds that use a counter: the name of a [counters.X] table
+  std::vector<Param> params;            // one per type->params
   int line = 0;                         // line in the scenario file (for messages)
+  /// The parameter named `key` of the kind's schema (std::out_of_range if there is none).
+  const Param& param(std::string_view key) const;
 };
 
 struct Protocol {
@@ -114,9 +111,10 @@ struct Scenario {
 /// - line: of the offending value, or of the table that misses a required key (none for a
 ///   missing top-level table);
 /// - value: as written in the file (strings with their quotes); none for a missing key.
-/// Units are converted to SI here: GHz, MHz -> Hz; ns, us -> s; degrees Celsius -> K. A loss step's
-/// loss_db is stored as "transmissivity" = 10^(-dB/10). A counter's dark_rate_hz R with gate t
-/// becomes dark_per_gate = 1 - exp(-R t) (threshold) or R t (resolving: Poisson mean).
+/// Units are converted to SI here: GHz, MHz -> Hz; ns, us -> s; degrees Celsius -> K; squeezing
+/// in dB -> r. A step parameter written under its alternative key (a loss step's loss_db) is
+/// stored as the parameter itself (transmissivity = 10^(-dB/10)). A counter's dark_rate_hz R with
+/// gate t becomes dark_per_gate = steps::dark_per_gate(kind, R, t).
 /// Tables that the chosen medium does not use ([link.line] with "air", [link.air] and
 /// [link.antenna] with "line") are refused rather than ignored.
 Scenario parse(std::string_view text, const std::string& file_name);

@@ -1,11 +1,17 @@
-// Heralded distillation steps with real photon counters, and the point evaluator that every
-// command calls: source -> Gaussian prefix on the covariance matrix -> one conversion to Fock
-// space -> the remaining steps as Kraus sums -> success probability, entanglement, fidelity.
-// Conventions: PHYSICS.md §0 (shot-noise units, lambda = tanh r >= 0), §3.3 (Kraus operators),
-// §4 (taps and counters), §5 (amplifiers, scissors, addition).
+// Heralded distillation steps with real photon counters, and the step registry: each kind of
+// step (link, tap, add, amplify, scissors, loss) is one file in src/steps that defines its
+// parameters (the schema the scenario reader follows), whether it uses a counter, and what it
+// does (a channel on the covariance matrix, or a Kraus set in Fock space). Conventions: shot-noise
+// units, lambda = tanh r >= 0; Kraus operators, taps, counters, amplifiers, scissors and addition
+// as in docs/physics.md §3.3, §4 and §5.
 #pragma once
 
+#include <limits>
+#include <optional>
+#include <span>
 #include <string>
+#include <string_view>
+#include <utility>
 #include <vector>
 
 #include "heraldry/common.hpp"
@@ -42,10 +48,15 @@ enum class Weighting { full, genuine };
 /// Per-gate dark probability from a dark-count rate: p = 1 - exp(-R t) (Poisson arrivals).
 double dark_probability(double rate_hz, double gate_s);
 
+/// The counter's `dark` value from a dark-count rate R over a gate t (Poissonian arrivals): a
+/// threshold counter clicks on at least one, p = 1 - exp(-R t); a resolving counter's mean is
+/// nu = R t. The one conversion of a rate, used by the scenario reader and for swept rates.
+double dark_per_gate(CounterKind kind, double rate_hz, double gate_s);
+
 /// P(reading | k photons reach the counter).
 /// threshold: reading 1 = click, 1 - (1-p)(1-eta)^k; reading 0 = no click, (1-p)(1-eta)^k.
 /// resolving: reading j = exactly j counts,
-///   sum_{i=0}^{min(j,k)} C(k,i) eta^i (1-eta)^{k-i} e^{-nu} nu^{j-i} / (j-i)!   (PHYSICS.md §4.2).
+///   sum_{i=0}^{min(j,k)} C(k,i) eta^i (1-eta)^{k-i} e^{-nu} nu^{j-i} / (j-i)!   (docs/physics.md §4.2).
 /// Throws InputError for a threshold reading other than 0 or 1, or a negative reading.
 double reading_probability(const CounterModel& counter, int reading, int photons,
                            Weighting weighting = Weighting::full);
@@ -63,37 +74,17 @@ void validate(const CounterModel& counter, const std::string& key);
 /// deliver more modes than its bandwidth). No counters: the bandwidth.
 double trial_rate_hz(double bandwidth_hz, const std::vector<CounterModel>& counters_used);
 
-// ------------------------------------------------------------------------------ steps
-
-enum class StepKind { link, tap, add, amplify, scissors, loss };
-const char* to_string(StepKind kind);
-
-/// One resolved step (no file format, no ranges: one value per parameter, SI units).
-/// Fields a kind does not use are ignored.
-struct StepSpec {
-  StepKind kind = StepKind::link;
-  Mode mode = Mode::B;                   // the mode the step acts on (link: both)
-  double transmissivity = 1.0;           // tap: T of the tap beam splitter; loss: tau
-  double gain = 1.0;                     // amplify: g of g^n; scissors: g = sqrt(kappa/(1-kappa))
-  double squeezing = 0.0;                // add: two-mode squeezing parameter s of the adder
-  double photon_source_efficiency = 1.0; // scissors: probability that the ancilla photon is there
-  double bath_photons = 0.0;             // loss: thermal occupation of the environment
-  int counter = -1;                      // tap, add, scissors: index into PointSpec::counters
-  int counts = 1;                        // tap, add: herald reading (threshold: 1 click, 0 none)
-  int max_photons = 0;                   // amplify: N of the physical realisation (0: ideal)
-};
-
 // ---- Kraus sets of the heralded steps on a per-mode cutoff N (photon numbers 0..N). Each is
 // the heralded, unnormalised map rho -> sum_k K_k rho K_k^T; photons pushed above N are left to
 // the engine, which books them in its truncation ledger.
 
 /// Tap: K_k = sqrt(w(k)) A_k, A_k = the pure-loss Kraus operators of transmissivity T
-/// (<n-k|A_k|n> = sqrt(C(n,k) T^{n-k} (1-T)^k), PHYSICS.md §4.1), w(k) = P(reading | k).
+/// (<n-k|A_k|n> = sqrt(C(n,k) T^{n-k} (1-T)^k), docs/physics.md §4.1), w(k) = P(reading | k).
 fock::Operation tap_operation(double transmissivity, const CounterModel& counter, int reading,
                               int cutoff, Weighting weighting = Weighting::full);
 
-/// Heralded photon addition (PHYSICS.md §5.3): a two-mode squeezer of parameter s with a vacuum
-/// idler acts on the mode as the quantum-limited amplifier of gain G = cosh^2 s,
+/// Heralded photon addition (docs/physics.md §5.3): a two-mode squeezer of parameter s with a
+/// vacuum idler acts on the mode as the quantum-limited amplifier of gain G = cosh^2 s,
 /// B_k = sqrt(C(n+k,k)) G^{-(n+1)/2} (1-1/G)^{k/2} |n+k><n| with k photons in the idler;
 /// K_k = sqrt(w(k)) B_k. The k >= N+1 terms, which leave the truncated space entirely, are
 /// lumped into one operator of shift N+1 (it only feeds the ledger). 0 <= s <= 3.
@@ -102,9 +93,9 @@ fock::Operation add_operation(double squeezing, const CounterModel& counter, int
 
 /// Noiseless amplifier g^n (Ralph & Lund, AIP Conf. Proc. 1110, 155 (2009)).
 /// g > 1, N = max_photons > 0: K = g^{n-N} Pi_N, the largest multiple of g^n with K^T K <= I on
-/// a realisation that keeps n <= N (PHYSICS.md §5.1). max_photons = 0 (ideal): N = the cutoff,
-/// i.e. the bound of a realisation keeping every photon number the engine holds (it vanishes as
-/// the cutoff grows: an ideal amplifier has no finite success probability).
+/// a realisation that keeps n <= N (docs/physics.md §5.1). max_photons = 0 (ideal): N = the
+/// cutoff, i.e. the bound of a realisation keeping every photon number the engine holds (it
+/// vanishes as the cutoff grows: an ideal amplifier has no finite success probability).
 /// g <= 1: K = g^n (already a contraction).
 fock::Operation amplify_operation(double gain, int max_photons, int cutoff);
 
@@ -113,71 +104,119 @@ fock::Operation amplify_operation(double gain, int max_photons, int cutoff);
 /// with reflectivity kappa = g^2/(1+g^2) into the output mode; the other arm meets the input on
 /// a 50:50 beam splitter watched by two counters of the same model; herald: exactly one fires
 /// (threshold: one click, one silent; resolving: one count and zero counts).
-/// With ideal counters it applies T_± = sqrt((1-kappa)/2)(|0><0| ± g |1><1|) (PHYSICS.md §5.2).
-/// The second outcome gets the pi-phase correction |1> -> -|1> before the outcomes are merged;
-/// phase_correction = false omits it (for tests: that mixture carries no entanglement).
+/// With ideal counters it applies T_± = sqrt((1-kappa)/2)(|0><0| ± g |1><1|) (docs/physics.md
+/// §5.2). The second outcome gets the pi-phase correction |1> -> -|1> before the outcomes are
+/// merged; phase_correction = false omits it (for tests: that mixture carries no entanglement).
 fock::Operation scissors_operation(double gain, double source_efficiency,
                                    const CounterModel& counter, int cutoff,
                                    Weighting weighting = Weighting::full,
                                    bool phase_correction = true);
 
-// ------------------------------------------------------------------------------ a point
+// ------------------------------------------------------------------------------ the registry
 
-/// Everything one evaluation needs, resolved (SI units, no ranges).
-struct PointSpec {
-  double squeezing_r = 0.0;              // two-mode squeezing parameter at the source
-  double thermal_photons = 0.0;          // per mode at the source
-  link::Channel channel_a;               // applied to mode A by the `link` step
-  link::Channel channel_b;               // applied to mode B by the `link` step
-  std::vector<StepSpec> steps;
-  std::vector<CounterModel> counters;
-  fock::Engine engine = fock::Engine::sector;
-  int cutoff = 0;                        // per-mode photon-number cutoff; 0 = auto
-  double tolerance = 1e-10;              // truncation budget (relative, on the heralded state)
-  double max_memory_bytes = 4.0 * 1024 * 1024 * 1024;  // per state, for the auto cutoff
-  int max_cutoff = 160;                  // the auto cutoff never goes above this (time bound)
+/// No bound on that side of a Range.
+inline constexpr double unbounded = std::numeric_limits<double>::infinity();
+
+/// An interval of allowed values (every bound also requires a finite number).
+struct Range {
+  double lo = -unbounded;
+  double hi = unbounded;
+  bool lo_open = false;
+  bool hi_open = false;
+  bool contains(double x) const;
 };
 
-struct PointResult {
-  Status status = Status::not_computed;
-  double success_probability = 0.0;      // Tr of the heralded, unnormalised state
-  double negativity = 0.0;
-  double log_negativity = 0.0;
-  double fidelity = 0.0;                 // Braunstein-Kimble, unit gain, coherent inputs
-  double false_herald_fraction = 0.0;    // 1 - P_genuine / P
-  /// sqrt(ledger / P): the error scale of the figures due to the cutoff. The ledger / P itself
-  /// bounds the relative error of P; the normalised heralded state is only bounded to
-  /// ~2 sqrt(ledger / P) in trace norm (the dropped tail's coherences with the kept part:
-  /// Cauchy-Schwarz after the heralding map, the gentle-measurement lemma; see
-  /// heraldry/fock.hpp), and E_N follows it: a TMSV truncated with ledger 1e-10 is off by
-  /// ~1e-5 in E_N. Reporting the square root makes `tolerance` a bound on the figures.
-  double truncation_error = 0.0;
-  double amplifier_cut_fraction = 0.0;   // largest input weight above N cut by an amplify step
-  int cutoff = 0;                        // the cutoff the figures were computed at
-  int cutoff_needed = 0;                 // the cutoff the tolerance needs (estimate if missed)
+/// One parameter of a step kind: its key in a scenario's step table, its units (SI), meaning,
+/// range and default. Numbers may be swept (a list or range adds an axis) and tuned; integers
+/// may not. `alternative_key` is a second spelling in other units (a loss in dB for a
+/// transmissivity), converted to this parameter by `alternative_to_si`; exactly one of the two
+/// may be written.
+struct ParamSchema {
+  enum class Type { number, integer };
+  std::string_view key;
+  std::string_view units;
+  std::string_view description;
+  Type type = Type::number;
+  Range range;
+  std::optional<double> fallback;         // absent: required
+  std::string_view alternative_key = {};
+  Range alternative_range = {};
+  double (*alternative_to_si)(double) = nullptr;
 };
 
-/// Evaluates one point. Leading link/loss steps act on the covariance matrix; the state is then
-/// converted to Fock space once (closed form) and the remaining steps act as Kraus sums.
-/// Auto cutoff: from the Gaussian estimate (fock::auto_cutoff_gaussian on the prefix state),
-/// raised (x1.25 + 2, or by extrapolating the geometric decay of the error once two cutoffs
-/// are known) until truncation_error = sqrt(ledger / P) <= tolerance. The conversion ledger is the Gaussian trace
-/// deficit computed directly, so tolerances far below 1e-16 P are reachable.
-/// Numerical outcomes are statuses, never exceptions: truncation_budget_missed when the
-/// tolerance needs more memory than max_memory_bytes, when a fixed cutoff misses it, or when the
-/// error stops falling with the cutoff (cutoff_needed: the cutoff the tolerance needs,
-/// extrapolated); herald_below_roundoff when P < 1e-300 or P does not exceed the truncation
-/// ledger (the figures are then 0 but P). Figures are never NaN; invalid_result (figures 0) if
-/// a guard catches a non-finite one or one outside its range by more than round-off (P, F and
-/// the false-herald fraction in [0, 1] within 1e-12 / 1e-9, N and E_N >= -1e-9); a value
-/// outside by round-off only is set to the bound it crossed. A protocol with counters but no dark counts has no false heralds
-/// (0 without a second run); otherwise the steps run a second time with genuine weights.
-/// Throws InputError for inconsistent input (a counter index out of range, a parameter out of
-/// its domain, a fixed cutoff whose state does not fit in max_memory_bytes).
-PointResult evaluate(const PointSpec& spec);
+struct StepType;
 
-/// The counters the steps of a protocol use (for trial_rate_hz), scissors counting its counter
-/// once.
+/// One resolved step: its kind, the mode it acts on, its counter (an index into the point's
+/// counters, for kinds that use one) and one value per parameter of its schema, in schema order
+/// and SI units (integers stored exactly as doubles). Built by the scenario layer or by make().
+struct StepSpec {
+  const StepType* type = nullptr;
+  Mode mode = Mode::B;
+  int counter = -1;
+  std::vector<double> values;
+  /// The value of parameter `key` (std::invalid_argument if the kind has no such parameter).
+  double value(std::string_view key) const;
+  /// Sets parameter `key` (std::invalid_argument if the kind has no such parameter).
+  void set(std::string_view key, double v);
+};
+
+/// What a step may read besides its own spec, and what it reports back.
+struct StepContext {
+  const CounterModel* counter = nullptr;  // the step's counter (kinds that use one)
+  double frequency_hz = 0.0;              // carrier of the mode the step acts on
+  link::Channel link_a, link_b;           // the link's channels at this point (the link step)
+  Weighting weighting = Weighting::full;
+  fock::Workspace* work = nullptr;
+  double amplifier_cut_fraction = 0.0;    // largest over the amplify steps run so far
+};
+
+/// The channels a Gaussian step applies to each mode (absent: identity on that mode).
+struct Channels {
+  std::optional<link::Channel> a, b;
+};
+
+/// A kind of step. Gaussian kinds (link, loss) act as thermal-loss channels, on the covariance
+/// matrix while the state is Gaussian and by their Kraus sums once it is in Fock space (the
+/// evaluator does both from `channels`); heralded kinds give their heralding map for each engine.
+struct StepType {
+  enum class Role { link, channel, herald };
+  std::string_view name;                       // the key of its table in a protocol ("link": the string)
+  std::string_view summary;                    // one line for messages and docs
+  Role role = Role::herald;
+  std::span<const ParamSchema> params;
+  bool uses_counter = false;
+  /// Cross-checks with the counter that the schema cannot express (e.g. a reading a threshold
+  /// counter cannot give); throws InputError naming the parameter key. May be null.
+  void (*check)(const StepSpec&, const CounterModel& counter, std::string_view counter_name) = nullptr;
+  /// Gaussian kinds: the channel on each mode.
+  Channels (*channels)(const StepSpec&, const StepContext&) = nullptr;
+  /// Heralded kinds: apply the step to a Fock state (both engines).
+  void (*apply_sector)(fock::SectorState&, const StepSpec&, StepContext&) = nullptr;
+  void (*apply_dense)(fock::DenseState&, const StepSpec&, StepContext&) = nullptr;
+
+  /// Index of parameter `key` in `params` (-1 if none).
+  int param_index(std::string_view key) const;
+};
+
+/// Every kind of step, in the order of src/steps/registry.cpp.
+std::span<const StepType* const> registry();
+/// The kind named `name`, or nullptr.
+const StepType* find_step_type(std::string_view name);
+/// The link step (exactly one per protocol).
+const StepType& link_type();
+
+/// A step of kind `name` on `mode` with the given parameter values (the others at their
+/// defaults) and counter index: for tests and programs that build points by hand.
+/// std::invalid_argument for an unknown kind or key, or a required parameter left out.
+StepSpec make(std::string_view name, Mode mode = Mode::B,
+              std::initializer_list<std::pair<std::string_view, double>> values = {}, int counter = -1);
+
+/// Applies one step to a Fock state: a Gaussian kind through the Kraus sums of its channels, a
+/// heralded kind through its own operation (with the context's counter, weighting, workspace).
+void apply(fock::SectorState& state, const StepSpec& step, StepContext& context);
+void apply(fock::DenseState& state, const StepSpec& step, StepContext& context);
+
+/// The counters the steps of a protocol use (for trial_rate_hz), each counted once.
 std::vector<CounterModel> counters_used(const std::vector<StepSpec>& steps,
                                         const std::vector<CounterModel>& counters);
 

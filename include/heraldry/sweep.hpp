@@ -9,8 +9,8 @@
 #include <string>
 #include <vector>
 
+#include "heraldry/point.hpp"
 #include "heraldry/scenario.hpp"
-#include "heraldry/steps.hpp"
 
 namespace heraldry::sweep {
 
@@ -42,14 +42,14 @@ struct Plan {
 
 Plan make_plan(const scenario::Scenario& sc);
 
+/// The scenario's source and numerics as the point pipeline takes them.
+point::Source source_of(const scenario::Scenario& sc);
+point::Numerics numerics_of(const scenario::Scenario& sc);
+
 /// The resolved point of protocol p at a multi-index; `distance_m` (if >= 0) replaces the grid
 /// distance (used to refine crossings between grid points).
-steps::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
+point::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
                          std::span<const std::size_t> index, double distance_m = -1.0);
-
-/// Trials per second of protocol p: the source bandwidth and the counters it uses.
-double trial_rate_hz(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
-                     std::span<const std::size_t> index);
 
 /// Number of threads the dispatcher uses: `requested` if > 0, else OMP_NUM_THREADS / all cores.
 int thread_count(int requested);

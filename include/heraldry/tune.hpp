@@ -1,6 +1,6 @@
 // Tuning: the free parameters a scenario marks with `{ tune = [lo, hi] }` (step parameters and
 // [source] squeezing_db) optimised for one protocol at one distance, derivative-free, every
-// evaluation through sweep::resolve + steps::evaluate (one point each).
+// evaluation through sweep::resolve + point::evaluate (one point each).
 #pragma once
 
 #include <cstddef>
@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "heraldry/common.hpp"
+#include "heraldry/point.hpp"
 #include "heraldry/scenario.hpp"
 
 namespace heraldry::tune {
@@ -32,10 +33,10 @@ struct Knob {
   std::string name;         // "source.squeezing_db" or "step2.transmissivity" (1-based step)
   std::string units;        // "dB", "1", "K"
   std::string description;  // "tap on mode b: transmissivity"
-  double lo = 0.0;          // the range from the scenario (SI; dB for the squeezing)
-  double hi = 0.0;
+  double lo = 0.0;          // the range from the scenario (SI; dB for the squeezing, as the
+  double hi = 0.0;          // user writes and reads it: applied as r = dB ln(10) / 20)
   int step = -1;            // index into Protocol::steps; -1 for the source squeezing
-  std::string key;          // the step parameter's key
+  int param = -1;           // index of the step parameter in its kind's schema
 };
 
 /// The tunable parameters of protocol `protocol` of the scenario: the source squeezing first
@@ -50,16 +51,9 @@ struct Options {
   std::optional<double> max_false_herald_fraction;    // feasible: false heralds <= this
 };
 
-/// The figures of one evaluated setting.
-struct Figures {
-  Status status = Status::not_computed;
-  double success_probability = 0.0;
-  double heralding_rate_hz = 0.0;       // trial rate x P
-  double false_herald_fraction = 0.0;
-  double log_negativity = 0.0;
-  double fidelity = 0.0;
-  int cutoff = 0;
-  double truncation_error = 0.0;
+/// The figures of one evaluated setting: the point's result, whether it is feasible, and the
+/// objective there.
+struct Figures : point::PointResult {
   /// status ok and every constraint of Options met.
   bool feasible = false;
   /// The objective's value; -infinity when not feasible (such a point is never chosen).

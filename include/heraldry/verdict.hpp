@@ -9,19 +9,24 @@
 
 #include "heraldry/common.hpp"
 #include "heraldry/crossing.hpp"
+#include "heraldry/point.hpp"
+
+namespace heraldry::scenario {
+struct Scenario;
+}
+namespace heraldry::sweep {
+struct Plan;
+}
+namespace heraldry::output {
+struct RunData;
+}
 
 namespace heraldry::verdict {
 
 struct ProtocolVerdict {
   std::string name;
-  Status status = Status::not_computed;   // of the evaluation at the target
-  double success_probability = 0.0;
-  double heralding_rate_hz = 0.0;
-  double false_herald_fraction = 0.0;
-  double log_negativity = 0.0;
-  double fidelity = 0.0;
-  double truncation_error = 0.0;
-  int cutoff = 0;
+  /// The evaluation at the target distance with the best setting (every field of the point).
+  point::PointResult at_target;
   /// Distance where the protocol stops beating the bare link, in E_N and in fidelity.
   Crossing breakeven_log_negativity;
   Crossing breakeven_fidelity;
@@ -36,9 +41,7 @@ struct ProtocolVerdict {
   /// counter's efficiency and dark rate are swept. Empty without swept parameters.
   std::vector<std::string> slice_axes;
   std::vector<std::size_t> slice_shape;
-  std::vector<double> slice_log_negativity, slice_fidelity, slice_success_probability, slice_heralding_rate_hz,
-      slice_false_herald_fraction;
-  std::vector<int> slice_status;
+  std::vector<point::PointResult> slice;
   bool pays_off_log_negativity = false;
   bool pays_off_fidelity = false;
   std::string summary;                        // one line in words
@@ -55,5 +58,10 @@ struct Verdict {
   Crossing fidelity_half;                     // bare link: F > 1/2 up to
   std::vector<ProtocolVerdict> protocols;
 };
+
+/// The verdict of a complete run: evaluates every swept setting at the target distance, keeps
+/// the best E_N, and refines the crossings between grid points (to 1e-4 of the grid step), in
+/// parallel on `threads` threads (src/sweep/verdict.cpp).
+Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, const output::RunData& data, int threads = 1);
 
 }  // namespace heraldry::verdict

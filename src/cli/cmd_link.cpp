@@ -8,28 +8,15 @@
 #include "cli/commands.hpp"
 #include "heraldry/crossing.hpp"
 #include "heraldry/fock.hpp"
-#include "heraldry/sweep.hpp"
 #include "heraldry/gaussian.hpp"
 #include "heraldry/link.hpp"
+#include "heraldry/point.hpp"
 #include "heraldry/scenario.hpp"
+#include "heraldry/sweep.hpp"
 
 namespace heraldry::cli {
 
 namespace {
-
-gaussian::StandardForm link_state(const scenario::Scenario& sc, const link::LinkBudget& budget) {
-  const double r = squeezing_parameter_from_db(sc.source.squeezing_db);
-  auto s = gaussian::tmst(r, sc.source.thermal_photons);
-  s = gaussian::apply(s, Mode::A, budget.a.channel);
-  return gaussian::apply(s, Mode::B, budget.b.channel);
-}
-
-// The PLOB bound of the link: the one-way channel, or the weaker arm for the midpoint geometry
-// (each arm is a cut between the two receivers).
-double link_plob(const link::LinkBudget& b, link::Geometry g) {
-  const double pb = gaussian::plob_bound(b.b.channel);
-  return g == link::Geometry::midpoint ? std::min(gaussian::plob_bound(b.a.channel), pb) : pb;
-}
 
 void print_crossing(const char* what, const Crossing& c) {
   switch (c.kind) {
@@ -49,10 +36,11 @@ int cmd_link(const std::string& path) {
   const scenario::Scenario sc = scenario::load(path);
   const auto& model = sc.link.model;
   const auto& grid = sc.link.distances_m;
+  const point::Source source = sweep::source_of(sc);
 
   std::printf("# %s\n", sc.title.c_str());
   std::printf("# %.4g GHz, squeezing %.3g dB, %.3g thermal photons at the source; %s, %s\n",
-              sc.source.frequency_hz * 1e-9, sc.source.squeezing_db, sc.source.thermal_photons,
+              sc.source.frequency_hz * 1e-9, squeezing_db_from_parameter(sc.source.squeezing_r), sc.source.thermal_photons,
               model.medium == link::Medium::air ? "open air" : "cryogenic line",
               model.geometry == link::Geometry::one_way ? "one-way (a stays, b travels)"
                                                          : "midpoint (each mode travels d/2)");
@@ -61,32 +49,20 @@ int cmd_link(const std::string& path) {
   std::printf("%10s %9s %9s %9s %9s %9s %11s %10s %11s %10s %9s %9s %9s\n", "distance_m", "beam_dB",
               "air_dB", "rain_dB", "iface_dB", "line_dB", "tau_a", "noise_a", "tau_b", "noise_b", "E_N",
               "fidelity", "PLOB");
-  std::vector<double> signed_en, fid_margin;
   for (double d : grid) {
-    const link::LinkBudget b = link::link_budget(model, d);
-    const auto s = link_state(sc, b);
+    const point::LinkPoint p = point::link_point(source, model, d);
+    const link::LinkBudget& b = p.budget;
     const auto& l = b.b.loss;
     const double na = (1.0 - b.a.channel.transmissivity) * b.a.channel.bath_photons;
     const double nb = (1.0 - b.b.channel.transmissivity) * b.b.channel.bath_photons;
     std::printf("%10.4g %9.3g %9.3g %9.3g %9.3g %9.3g %11.8f %10.4g %11.8f %10.4g %9.5f %9.5f %9.4g\n", d,
                 l.beam_db, l.air_db, l.rain_db, l.interface_db, l.line_db, b.a.channel.transmissivity, na,
-                b.b.channel.transmissivity, nb, gaussian::log_negativity(s), gaussian::fidelity(s),
-                link_plob(b, model.geometry));
-    signed_en.push_back(-std::log2(gaussian::smallest_pt_symplectic(s)));
-    fid_margin.push_back(gaussian::fidelity(s) - 0.5);
+                b.b.channel.transmissivity, nb, p.log_negativity, p.fidelity, p.plob_ebits);
   }
   if (grid.size() > 1) {
-    auto en_at = [&](double d) {
-      return -std::log2(gaussian::smallest_pt_symplectic(link_state(sc, link::link_budget(model, d))));
-    };
-    auto f_at = [&](double d) { return gaussian::fidelity(link_state(sc, link::link_budget(model, d))) - 0.5; };
-    // The Gaussian layer is instant: a crossing beyond the grid is found by scanning on.
-    auto beyond = [&](Crossing c, const std::function<double(double)>& f) {
-      return c.kind == Crossing::Kind::beyond_grid ? continue_crossing(f, grid.back(), 1e7) : c;
-    };
-    print_crossing("entanglement survives (E_N > 0) up to", beyond(last_downward_crossing(en_at, grid, signed_en), en_at));
-    print_crossing("teleportation beats the classical 1/2 up to",
-                   beyond(last_downward_crossing(f_at, grid, fid_margin), f_at));
+    const point::BareCrossings c = point::bare_crossings(source, model, grid);
+    print_crossing("entanglement survives (E_N > 0) up to", c.survival);
+    print_crossing("teleportation beats the classical 1/2 up to", c.fidelity_half);
   }
   return 0;
 }
@@ -114,15 +90,17 @@ int cmd_check(const std::string& path) {
 
   // The cutoff the bare link's state needs at each distance (Gaussian estimate; heralded
   // states have heavier tails and need more, which the run finds itself).
-  const auto engine = sc.numerics.engine == scenario::EngineKind::dense ? fock::Engine::dense : fock::Engine::sector;
-  const double tol = sc.numerics.tolerance;
-  const double max_bytes = sc.numerics.max_memory_mb * 1024.0 * 1024.0;
+  const point::Numerics numerics = sweep::numerics_of(sc);
+  const fock::Engine engine = numerics.engine;
+  const double tol = numerics.tolerance;
+  const double max_bytes = numerics.max_memory_bytes;
+  const point::Source source = sweep::source_of(sc);
   int lo = 0, hi = 0;
   double at = grid.front();
   for (double d : grid) {
     int n = 0;
     try {
-      n = fock::auto_cutoff_gaussian(link_state(sc, link::link_budget(sc.link.model, d)), tol * tol, engine, max_bytes);
+      n = fock::auto_cutoff_gaussian(point::bare_state(source, sc.link.model, d), tol * tol, engine, max_bytes);
     } catch (const fock::CutoffError& e) {
       throw InputError(path, 0, "numerics.max_memory_mb", std::to_string(sc.numerics.max_memory_mb),
                        "room for the states the run needs", std::string(e.what()) + " at " + std::to_string(d) + " m");
@@ -136,9 +114,9 @@ int cmd_check(const std::string& path) {
   if (sc.numerics.cutoff > 0) {
     std::printf("  cutoff: fixed at %d (the bare link needs %d..%d for tolerance %.3g)\n", sc.numerics.cutoff, lo, hi, tol);
   } else {
-    std::printf("  cutoff: auto; the bare link needs %d..%d for tolerance %.3g (largest at %.4g m, %.3g MB per state);\n"
+    std::printf("  cutoff: auto; the bare link needs %d..%d for tolerance %.3g (largest at %.4g m, %s per state);\n"
                 "          heralded states need more; the run stops at max_cutoff = %d\n",
-                lo, hi, tol, at, fock::memory_bytes_for(engine, hi) / 1048576.0, sc.numerics.max_cutoff);
+                lo, hi, tol, at, mebibytes(fock::memory_bytes_for(engine, hi)).c_str(), sc.numerics.max_cutoff);
     if (hi > sc.numerics.max_cutoff)
       std::printf("  warning: points beyond the bare link's cutoff %d > max_cutoff %d will miss the tolerance\n", hi,
                   sc.numerics.max_cutoff);

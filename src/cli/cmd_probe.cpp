@@ -7,6 +7,7 @@
 #include "cli/commands.hpp"
 #include "cli/json.hpp"
 #include "heraldry/gaussian.hpp"
+#include "heraldry/point.hpp"
 #include "heraldry/scenario.hpp"
 #include "heraldry/sweep.hpp"
 
@@ -54,23 +55,18 @@ int cmd_probe(const ProbeOptions& options) {
   sweep::Plan plan = sweep::make_plan(sc);
   for (const auto& s : options.set) apply_set(plan, s);
 
-  const link::LinkBudget budget = link::link_budget(sc.link.model, d);
-  auto bare = gaussian::tmst(squeezing_parameter_from_db(sc.source.squeezing_db), sc.source.thermal_photons);
-  bare = gaussian::apply(gaussian::apply(bare, Mode::A, budget.a.channel), Mode::B, budget.b.channel);
+  const auto bare = point::bare_state(sweep::source_of(sc), sc.link.model, d);
 
   struct Row {
     std::string name;
-    steps::PointResult r;
-    double rate;
+    point::PointResult r;
   };
   std::vector<Row> rows;
   bool failed = false;
   for (std::size_t p = 0; p < plan.protocols.size(); ++p) {
     const std::vector<std::size_t> idx(plan.protocols[p].axes.size(), 0);
-    const steps::PointSpec spec = sweep::resolve(sc, plan, p, idx, d);
-    const steps::PointResult r = steps::evaluate(spec);
-    const double trial = steps::trial_rate_hz(sc.source.bandwidth_hz, steps::counters_used(spec.steps, spec.counters));
-    rows.push_back({plan.protocols[p].name, r, r.status == Status::ok ? trial * r.success_probability : 0.0});
+    const point::PointResult r = point::evaluate(sweep::resolve(sc, plan, p, idx, d));
+    rows.push_back({plan.protocols[p].name, r});
     failed = failed || r.status != Status::ok;
   }
 
@@ -79,17 +75,9 @@ int cmd_probe(const ProbeOptions& options) {
                       json_number(gaussian::negativity(bare)) + ", \"log_negativity\": " +
                       json_number(gaussian::log_negativity(bare)) + ", \"fidelity\": " +
                       json_number(gaussian::fidelity(bare)) + "}, \"protocols\": [";
-    for (std::size_t i = 0; i < rows.size(); ++i) {
-      const auto& [name, r, rate] = rows[i];
-      const bool ok = r.status == Status::ok;
-      auto num = [&](double v) { return ok ? json_number(v) : std::string("null"); };
-      out += std::string(i ? ", " : "") + "{\"name\": " + json_string(name) + ", \"status\": " +
-             json_string(to_string(r.status)) + ", \"success_probability\": " + num(r.success_probability) +
-             ", \"negativity\": " + num(r.negativity) + ", \"log_negativity\": " + num(r.log_negativity) +
-             ", \"fidelity\": " + num(r.fidelity) + ", \"heralding_rate_hz\": " + num(rate) +
-             ", \"false_herald_fraction\": " + num(r.false_herald_fraction) + ", \"cutoff\": " +
-             std::to_string(r.cutoff) + ", \"truncation_error\": " + json_number(r.truncation_error) + "}";
-    }
+    for (std::size_t i = 0; i < rows.size(); ++i)
+      out += std::string(i ? ", " : "") + "{\"name\": " + json_string(rows[i].name) + ", " +
+             json_fields(rows[i].r) + "}";
     out += "]}\n";
     std::fputs(out.c_str(), stdout);
   } else {
@@ -98,9 +86,9 @@ int cmd_probe(const ProbeOptions& options) {
                 gaussian::log_negativity(bare), gaussian::negativity(bare), gaussian::fidelity(bare));
     std::printf("%-24s %12s %10s %10s %10s %12s %8s %7s %10s  %s\n", "protocol", "P_success", "E_N", "negativity",
                 "fidelity", "rate_Hz", "false%", "cutoff", "trunc_err", "status");
-    for (const auto& [name, r, rate] : rows)
+    for (const auto& [name, r] : rows)
       std::printf("%-24.24s %12.6g %10.6f %10.6f %10.6f %12.6g %8.3f %7d %10.2e  %s\n", name.c_str(),
-                  r.success_probability, r.log_negativity, r.negativity, r.fidelity, rate,
+                  r.success_probability, r.log_negativity, r.negativity, r.fidelity, r.heralding_rate_hz,
                   100.0 * r.false_herald_fraction, r.cutoff, r.truncation_error, to_string(r.status));
   }
   return failed ? 3 : 0;

@@ -6,6 +6,7 @@
 
 #include "cli/commands.hpp"
 #include "heraldry/common.hpp"
+#include "heraldry/ranks.hpp"
 #include "heraldry/run.hpp"
 #include "heraldry/scenario.hpp"
 
@@ -15,12 +16,35 @@ namespace {
 extern "C" void on_signal(int) { run::request_stop(); }
 }  // namespace
 
+namespace {
+
+int run_on_ranks(const RunOptions& options, ranks::Session& session);
+
+}  // namespace
+
 int cmd_run(const RunOptions& options) {
   // MPI (in a build with HERALDRY_WITH_MPI) lives as long as this object; with one rank, or
   // without MPI, what follows is the plain single-process run.
-  const run::RankSession session;
+  ranks::Session session;
+  try {
+    return run_on_ranks(options, session);
+  } catch (const std::exception& e) {
+    // Rank 0 leaves `execute` only after every other rank was released, so its errors end the
+    // run as without MPI. An error that ends another rank outside its evaluations (a broken
+    // exchange) leaves rank 0 waiting for it: that rank says what broke and ends the whole job.
+    if (session.ranks().size > 1 && session.ranks().rank != 0) {
+      std::fprintf(stderr, "heraldry: error on MPI rank %d: %s\n", session.ranks().rank, e.what());
+      session.abort(70);
+    }
+    throw;
+  }
+}
+
+namespace {
+
+int run_on_ranks(const RunOptions& options, ranks::Session& session) {
   const bool coordinator = session.ranks().rank == 0;
-  const std::optional<scenario::Scenario> shared = run::shared_scenario(
+  const std::optional<scenario::Scenario> shared = ranks::shared_scenario(
       [&] { return options.scenario.empty() ? scenario::demo() : scenario::load(options.scenario); });
   if (!shared) return 2;  // rank 0 could not read the scenario and says why
   const scenario::Scenario& sc = *shared;
@@ -63,9 +87,11 @@ int cmd_run(const RunOptions& options) {
     std::fprintf(stderr, "heraldry run: %zu points (%zu resumed) in %.2f s on %d threads, %.1f points/s -> %s\n",
                  s.total_points, s.resumed_points, s.seconds, s.threads,
                  s.computed_points / (s.seconds > 0 ? s.seconds : 1.0), s.file.c_str());
-  const std::string text = run::format_verdict(sc, *s.data.verdict);
+  const std::string text = format_verdict(sc, *s.data.verdict);
   std::fwrite(text.data(), 1, text.size(), stdout);
   return s.failed_points > 0 ? 3 : 0;
 }
+
+}  // namespace
 
 }  // namespace heraldry::cli

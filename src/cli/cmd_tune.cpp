@@ -49,11 +49,7 @@ std::string json_output(const tune::Result& r) {
   }
   out += "], \"figures\": ";
   if (r.feasible)
-    out += "{\"success_probability\": " + json_number(f.success_probability) + ", \"heralding_rate_hz\": " +
-           json_number(f.heralding_rate_hz) + ", \"false_herald_fraction\": " + json_number(f.false_herald_fraction) +
-           ", \"log_negativity\": " + json_number(f.log_negativity) + ", \"fidelity\": " + json_number(f.fidelity) +
-           ", \"cutoff\": " + std::to_string(f.cutoff) + ", \"truncation_error\": " + json_number(f.truncation_error) +
-           "}";
+    out += "{" + json_fields(f) + "}";
   else
     out += "null";
   out += ", \"bare\": {\"log_negativity\": " + json_number(r.bare_log_negativity) + ", \"fidelity\": " +

@@ -8,6 +8,7 @@
 #include <vector>
 
 #include "heraldry/scenario.hpp"
+#include "heraldry/verdict.hpp"
 
 namespace heraldry::cli {
 
@@ -43,6 +44,9 @@ int cmd_check(const std::string& scenario);
 int cmd_link(const std::string& scenario);
 int cmd_probe(const ProbeOptions& options);
 int cmd_tune(const TuneOptions& options);
+
+/// The verdict as a terminal table plus one line per protocol in words (src/cli/format.cpp).
+std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict& v);
 
 /// Before any work: the result file's folder exists or can be created (InputError otherwise).
 void preflight_output(const scenario::Scenario& sc, const std::string& file);

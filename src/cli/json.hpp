@@ -5,6 +5,8 @@
 #include <cstdio>
 #include <string>
 
+#include "heraldry/point.hpp"
+
 namespace heraldry::cli {
 
 /// A JSON string literal: quotes, backslashes and control characters escaped.
@@ -32,6 +34,27 @@ inline std::string json_number(double v) {
   char buf[40];
   std::snprintf(buf, sizeof buf, "%.17g", v);
   return buf;
+}
+
+/// Every field of a point's result as JSON members (no braces): "status" in words, the figures
+/// null when the status says the point has none (not ok).
+inline std::string json_fields(const point::PointResult& r) {
+  std::string out;
+  const bool ok = r.status == Status::ok;
+  for (const point::Field& f : point::result_fields()) {
+    const double v = f.get(r);
+    if (!out.empty()) out += ", ";
+    out += json_string(std::string(f.name)) + ": ";
+    if (f.label)
+      out += json_string(f.label(v));
+    else if (f.figure && !ok)
+      out += "null";
+    else if (f.integer)
+      out += std::to_string(static_cast<long long>(v));
+    else
+      out += json_number(v);
+  }
+  return out;
 }
 
 }  // namespace heraldry::cli

@@ -7,20 +7,10 @@
 
 #include "cli/commands.hpp"
 #include "heraldry/fock.hpp"
-#include "heraldry/gaussian.hpp"
-#include "heraldry/link.hpp"
+#include "heraldry/point.hpp"
+#include "heraldry/sweep.hpp"
 
 namespace heraldry::cli {
-
-namespace {
-
-std::string megabytes(double bytes) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%.4g MB", bytes / 1048576.0);
-  return buf;
-}
-
-}  // namespace
 
 void preflight_output(const scenario::Scenario& sc, const std::string& file) {
   namespace fs = std::filesystem;
@@ -41,22 +31,21 @@ void preflight_memory(const scenario::Scenario& sc) {
   // by max_cutoff) that does not fit in max_memory_mb would otherwise be cut down silently to
   // the memory limit at every point. Heralded states need more than the bare link: this is a
   // lower bound on what the run needs, so it refuses only scenarios that cannot succeed.
-  const auto engine = sc.numerics.engine == scenario::EngineKind::dense ? fock::Engine::dense : fock::Engine::sector;
-  const double max_bytes = sc.numerics.max_memory_mb * 1024.0 * 1024.0;
+  const point::Numerics numerics = sweep::numerics_of(sc);
+  const fock::Engine engine = numerics.engine;
+  const double max_bytes = numerics.max_memory_bytes;
   const std::string limit = std::to_string(sc.numerics.max_memory_mb);
   if (sc.numerics.cutoff > 0) {
     const double bytes = fock::memory_bytes_for(engine, sc.numerics.cutoff);
     if (bytes > max_bytes)
       throw InputError(sc.path, 0, "numerics.max_memory_mb", limit, "room for the fixed cutoff's states",
-                       "cutoff " + std::to_string(sc.numerics.cutoff) + " needs " + megabytes(bytes) + " per state");
+                       "cutoff " + std::to_string(sc.numerics.cutoff) + " needs " + mebibytes(bytes) + " per state");
     return;
   }
   const double tol = sc.numerics.tolerance;
-  const double r = squeezing_parameter_from_db(sc.source.squeezing_db);
+  const point::Source source = sweep::source_of(sc);
   for (double d : sc.link.distances_m) {
-    const link::LinkBudget b = link::link_budget(sc.link.model, d);
-    auto s = gaussian::tmst(r, sc.source.thermal_photons);
-    s = gaussian::apply(gaussian::apply(s, Mode::A, b.a.channel), Mode::B, b.b.channel);
+    const auto s = point::bare_state(source, sc.link.model, d);
     int needed = sc.numerics.max_cutoff;
     try {
       needed = std::min(needed, fock::auto_cutoff_gaussian(s, tol * tol, engine, 1e300));
@@ -69,7 +58,7 @@ void preflight_memory(const scenario::Scenario& sc) {
       std::snprintf(where, sizeof where, "%.4g m", d);
       throw InputError(sc.path, 0, "numerics.max_memory_mb", limit, "room for the states the run needs",
                        "the bare link at " + std::string(where) + " needs cutoff " + std::to_string(needed) + ", " +
-                           megabytes(bytes) + " per state; raise max_memory_mb, or lower max_cutoff or the tolerance");
+                           mebibytes(bytes) + " per state; raise max_memory_mb, or lower max_cutoff or the tolerance");
     }
   }
 }

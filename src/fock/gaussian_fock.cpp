@@ -233,18 +233,10 @@ double memory_bytes_for(Engine engine, int cutoff) {
   return 8.0 * (l * l + n * (n + 1.0) * (2.0 * n + 1.0) / 3.0);
 }
 
-namespace {
-std::string megabytes(double bytes) {
-  char buf[64];
-  std::snprintf(buf, sizeof buf, "%.1f MB", bytes / 1e6);
-  return buf;
-}
-}  // namespace
-
 CutoffError::CutoffError(int needed_cutoff, double memory_bytes, double limit_bytes)
     : std::runtime_error("truncation needs a cutoff of " + std::to_string(needed_cutoff) +
-                         " photons per mode; one state at that cutoff takes " + megabytes(memory_bytes) +
-                         ", above the allowed " + megabytes(limit_bytes)),
+                         " photons per mode; one state at that cutoff takes " + mebibytes(memory_bytes) +
+                         ", above the allowed " + mebibytes(limit_bytes)),
       needed_cutoff_(needed_cutoff), memory_bytes_(memory_bytes), limit_bytes_(limit_bytes) {}
 
 int auto_cutoff_gaussian(const gaussian::StandardForm& form, double tolerance, Engine engine,

@@ -52,6 +52,23 @@ void dataset(H5::Group& group, const std::string& name, const std::vector<hsize_
   attr(ds, "description", description);
 }
 
+// One dataset per field of the point results (flat, distance slowest), integers as integers.
+void fields_datasets(H5::Group& group, const std::vector<hsize_t>& shape, const std::vector<point::PointResult>& points,
+                     const std::string& description_prefix = {}) {
+  for (const point::Field& f : point::result_fields()) {
+    const std::string name(f.name), units(f.units), description = description_prefix + std::string(f.description);
+    if (f.integer) {
+      std::vector<int> v(points.size());
+      for (std::size_t i = 0; i < points.size(); ++i) v[i] = static_cast<int>(f.get(points[i]));
+      dataset(group, name, shape, v, units, description);
+    } else {
+      std::vector<double> v(points.size());
+      for (std::size_t i = 0; i < points.size(); ++i) v[i] = f.get(points[i]);
+      dataset(group, name, shape, v, units, description);
+    }
+  }
+}
+
 std::string read_string_attr(const H5::H5Object& obj, const char* name) {
   std::string value;
   obj.openAttribute(name).read(string_type(), value);
@@ -102,14 +119,16 @@ void write_verdict(H5::H5File& file, const verdict::Verdict& v) {
   for (const auto& p : v.protocols) {
     H5::Group pg = g.createGroup(group_name(p.name));
     attr(pg, "name", p.name);
-    attr(pg, "status", std::string(to_string(p.status)));
-    attr(pg, "success_probability", p.success_probability);
-    attr(pg, "heralding_rate_hz", p.heralding_rate_hz);
-    attr(pg, "false_herald_fraction", p.false_herald_fraction);
-    attr(pg, "log_negativity", p.log_negativity);
-    attr(pg, "fidelity", p.fidelity);
-    attr(pg, "truncation_error", p.truncation_error);
-    attr(pg, "cutoff", static_cast<long long>(p.cutoff));
+    for (const point::Field& f : point::result_fields()) {
+      const double v = f.get(p.at_target);
+      const std::string name(f.name);
+      if (f.label)
+        attr(pg, name.c_str(), std::string(f.label(v)));
+      else if (f.integer)
+        attr(pg, name.c_str(), static_cast<long long>(v));
+      else
+        attr(pg, name.c_str(), v);
+    }
     crossing_attrs(pg, "breakeven_log_negativity", p.breakeven_log_negativity);
     crossing_attrs(pg, "breakeven_fidelity", p.breakeven_fidelity);
     crossing_attrs(pg, "fidelity_half", p.fidelity_half);
@@ -127,12 +146,7 @@ void write_verdict(H5::H5File& file, const verdict::Verdict& v) {
       attr(tg, "dims", dims);
       attr(tg, "distance_m", v.target_m);
       std::vector<hsize_t> shape(p.slice_shape.begin(), p.slice_shape.end());
-      dataset(tg, "log_negativity", shape, p.slice_log_negativity, "ebit", "log-negativity at the target distance");
-      dataset(tg, "fidelity", shape, p.slice_fidelity, "1", "teleportation fidelity at the target distance");
-      dataset(tg, "success_probability", shape, p.slice_success_probability, "1", "success probability at the target distance");
-      dataset(tg, "heralding_rate_hz", shape, p.slice_heralding_rate_hz, "Hz", "heralded pairs per second at the target distance");
-      dataset(tg, "false_herald_fraction", shape, p.slice_false_herald_fraction, "1", "false-herald fraction at the target distance");
-      dataset(tg, "status", shape, p.slice_status, "1", "0 ok, else the point failed (see /protocols status codes)");
+      fields_datasets(tg, shape, p.slice, "at the target distance: ");
     }
   }
 }
@@ -163,7 +177,6 @@ RunData empty_run(const sweep::Plan& plan) {
   for (const auto& p : plan.protocols) {
     ProtocolTable t;
     t.points.resize(p.size());
-    t.heralding_rate_hz.assign(p.size(), 0.0);
     t.done.assign(p.size(), 0);
     d.protocols.push_back(std::move(t));
   }
@@ -212,7 +225,7 @@ void write_file(const std::string& path, const scenario::Scenario& sc, const swe
     dataset(axes, "distance_m", dd, dist, "m", "distance between source and receiver (one-way) or between the receivers (midpoint)");
 
     H5::Group lg = file.createGroup("/link");
-    const LinkTable& L = data.link;
+    const point::LinkTable& L = data.link;
     dataset(lg, "transmissivity_a", dd, L.transmissivity_a, "1", "power transmissivity of mode a's path");
     dataset(lg, "transmissivity_b", dd, L.transmissivity_b, "1", "power transmissivity of mode b's path");
     dataset(lg, "bath_photons_a", dd, L.bath_photons_a, "1", "effective thermal occupation of mode a's environment");
@@ -244,31 +257,7 @@ void write_file(const std::string& path, const scenario::Scenario& sc, const swe
         dataset(ag, ax.name, {ax.values.size()}, ax.values, ax.units, ax.description);
       std::vector<hsize_t> shape;
       for (auto s : pp.shape()) shape.push_back(s);
-      const std::size_t n = pp.size();
-      std::vector<double> P(n), N(n), E(n), F(n), fh(n), te(n), cut(n);
-      std::vector<int> cutoff(n), status(n);
-      for (std::size_t i = 0; i < n; ++i) {
-        const auto& r = t.points[i];
-        P[i] = r.success_probability;
-        N[i] = r.negativity;
-        E[i] = r.log_negativity;
-        F[i] = r.fidelity;
-        fh[i] = r.false_herald_fraction;
-        te[i] = r.truncation_error;
-        cut[i] = r.amplifier_cut_fraction;
-        cutoff[i] = r.cutoff;
-        status[i] = static_cast<int>(t.done[i] ? r.status : Status::not_computed);
-      }
-      dataset(g, "success_probability", shape, P, "1", "probability that a trial heralds (trace of the heralded state)");
-      dataset(g, "negativity", shape, N, "1", "negativity of the heralded state");
-      dataset(g, "log_negativity", shape, E, "ebit", "log-negativity of the heralded state");
-      dataset(g, "fidelity", shape, F, "1", "Braunstein-Kimble unit-gain coherent-state teleportation fidelity");
-      dataset(g, "heralding_rate_hz", shape, t.heralding_rate_hz, "Hz", "heralded pairs per second: trial rate x success probability");
-      dataset(g, "false_herald_fraction", shape, fh, "1", "fraction of heralds in which a counter that fired received no photon");
-      dataset(g, "truncation_error", shape, te, "1", "error scale of the figures due to the Fock cutoff: sqrt(probability lost to the cutoff / success probability)");
-      dataset(g, "amplifier_cut_fraction", shape, cut, "1", "input weight above the amplifier's photon-number range");
-      dataset(g, "cutoff", shape, cutoff, "1", "per-mode photon-number cutoff of the computation");
-      dataset(g, "status", shape, status, "1", "0 ok, 1 truncation budget missed, 2 herald below round-off, 3 not computed, 4 invalid");
+      fields_datasets(g, shape, t.points);
       dataset(g, "done", shape, t.done, "1", "1 where the point has been computed");
     }
     if (data.verdict) write_verdict(file, *data.verdict);
@@ -304,29 +293,17 @@ bool read_checkpoint(const std::string& path, const scenario::Scenario& sc, cons
       const auto& pp = plan.protocols[p];
       H5::Group g = pgs.openGroup(group_name(pp.name));
       const std::size_t n = pp.size();
-      const auto P = read_dataset<double>(g, "success_probability", n);
-      const auto N = read_dataset<double>(g, "negativity", n);
-      const auto E = read_dataset<double>(g, "log_negativity", n);
-      const auto F = read_dataset<double>(g, "fidelity", n);
-      const auto fh = read_dataset<double>(g, "false_herald_fraction", n);
-      const auto te = read_dataset<double>(g, "truncation_error", n);
-      const auto cut = read_dataset<double>(g, "amplifier_cut_fraction", n);
-      const auto cutoff = read_dataset<int>(g, "cutoff", n);
-      const auto status = read_dataset<int>(g, "status", n);
       ProtocolTable& t = data.protocols[p];
-      t.heralding_rate_hz = read_dataset<double>(g, "heralding_rate_hz", n);
       t.done = read_dataset<std::uint8_t>(g, "done", n);
-      for (std::size_t i = 0; i < n; ++i) {
-        auto& r = t.points[i];
-        r.success_probability = P[i];
-        r.negativity = N[i];
-        r.log_negativity = E[i];
-        r.fidelity = F[i];
-        r.false_herald_fraction = fh[i];
-        r.truncation_error = te[i];
-        r.amplifier_cut_fraction = cut[i];
-        r.cutoff = cutoff[i];
-        r.status = static_cast<Status>(status[i]);
+      for (const point::Field& f : point::result_fields()) {
+        const std::string name(f.name);
+        if (f.integer) {
+          const auto v = read_dataset<int>(g, name, n);
+          for (std::size_t i = 0; i < n; ++i) f.set(t.points[i], v[i]);
+        } else {
+          const auto v = read_dataset<double>(g, name, n);
+          for (std::size_t i = 0; i < n; ++i) f.set(t.points[i], v[i]);
+        }
       }
     }
   } catch (const H5::Exception& e) {

@@ -23,6 +23,13 @@ using detail::Document;
 using detail::Table;
 
 
+const Param& Step::param(std::string_view key) const {
+  const int i = type->param_index(key);
+  if (i < 0 || static_cast<std::size_t>(i) >= params.size())
+    throw std::out_of_range("step '" + std::string(type->name) + "' has no parameter '" + std::string(key) + "'");
+  return params[static_cast<std::size_t>(i)];
+}
+
 const Counter* Scenario::find_counter(std::string_view name) const {
   for (const auto& c : counters)
     if (c.name == name) return &c;
@@ -61,10 +68,11 @@ Source read_source(const Table& root) {
   if (sq != nullptr && sq->is_table()) {
     const auto tuned = t.table("squeezing_db");
     if (!tuned->has("tune")) t.fail("squeezing_db", squeezing.number_text() + " or { tune = [lo, hi] }");
-    s.squeezing_db_tune = tuned->tune_range(squeezing);
-    s.squeezing_db = 0.5 * (s.squeezing_db_tune->first + s.squeezing_db_tune->second);
+    const auto [lo, hi] = tuned->tune_range(squeezing);
+    s.squeezing_r_tune = {squeezing_parameter_from_db(lo), squeezing_parameter_from_db(hi)};
+    s.squeezing_r = squeezing_parameter_from_db(0.5 * (lo + hi));
   } else {
-    s.squeezing_db = t.required_number("squeezing_db", squeezing);
+    s.squeezing_r = squeezing_parameter_from_db(t.required_number("squeezing_db", squeezing));
   }
   s.thermal_photons = t.number_or("thermal_photons", non_negative, 0.0);
   s.bandwidth_hz = t.required_number("bandwidth_mhz", positive) * 1e6;
@@ -202,12 +210,11 @@ std::vector<Counter> read_counters(const Table& root) {
       // Poissonian dark counts of rate R over a gate t: mean R t per gate; a threshold counter
       // clicks on at least one, p = 1 - exp(-R t).
       for (double r : rate->values) {
-        const double mean = r * k.gate_s;
         // A finite rate times a finite gate can overflow (1e308 Hz x 10 s): refused here, where
         // the message can name the key and the line, not later by the counter model.
-        if (!std::isfinite(mean))
+        if (!std::isfinite(r * k.gate_s))
           c.fail("dark_rate_hz", "a rate whose dark counts per gate (rate x gate) are a finite number");
-        k.dark_per_gate.values.push_back(k.kind == CounterKind::threshold ? -std::expm1(-mean) : mean);
+        k.dark_per_gate.values.push_back(steps::dark_per_gate(k.kind, r, k.gate_s));
       }
     } else if (k.kind == CounterKind::threshold) {
       k.dark_per_gate = c.param("dark_per_gate", unit_closed).value_or(Param{{0.0}, std::nullopt});
@@ -221,7 +228,13 @@ std::vector<Counter> read_counters(const Table& root) {
 
 // --------------------------------------------------------------------------------- protocols
 
-const std::vector<std::string_view> step_kinds = {"tap", "add", "amplify", "scissors", "loss"};
+// The heralded and channel kinds of the registry: the keys that name a step table.
+std::vector<std::string_view> step_table_kinds() {
+  std::vector<std::string_view> out;
+  for (const steps::StepType* t : steps::registry())
+    if (t->role != steps::StepType::Role::link) out.push_back(t->name);
+  return out;
+}
 
 std::string read_counter_name(const Table& st, const std::vector<Counter>& counters) {
   const auto name = st.string("counter");
@@ -237,8 +250,53 @@ std::string read_counter_name(const Table& st, const std::vector<Counter>& count
   return *name;
 }
 
+Bounds bounds_of(const steps::Range& r) { return {r.lo, r.hi, r.lo_open, r.hi_open}; }
+
+std::string integer_text(const steps::Range& r) {
+  return "an integer in [" + std::to_string(static_cast<long long>(r.lo)) + ", " +
+         std::to_string(static_cast<long long>(r.hi)) + "]";
+}
+
+// One parameter of a step table, by its schema: a number (list, range or tune range) or an
+// integer; under its own key or its alternative one; its default when absent.
+Param read_step_param(const Table& st, const steps::ParamSchema& ps) {
+  if (ps.type == steps::ParamSchema::Type::integer) {
+    const auto v = st.integer(ps.key, static_cast<std::int64_t>(ps.range.lo), static_cast<std::int64_t>(ps.range.hi));
+    if (v) return Param{{static_cast<double>(*v)}, std::nullopt};
+    if (!ps.fallback) st.missing(ps.key, integer_text(ps.range));
+    return Param{{*ps.fallback}, std::nullopt};
+  }
+  const Bounds b = bounds_of(ps.range);
+  const auto own = st.param(ps.key, b, true);
+  std::optional<Param> alt;
+  if (!ps.alternative_key.empty()) {
+    alt = st.param(ps.alternative_key, bounds_of(ps.alternative_range), true);
+    if (own && alt)
+      st.fail(ps.alternative_key,
+              "only one of " + std::string(ps.key) + " and " + std::string(ps.alternative_key));
+  }
+  if (own) return *own;
+  if (alt) {
+    Param p;
+    for (double x : alt->values) p.values.push_back(ps.alternative_to_si(x));
+    // A tuned value in the other units is tuned as the value it stands for (the conversion may
+    // reverse the order: a loss in dB decreases the transmissivity).
+    if (alt->tune) {
+      const double x = ps.alternative_to_si(alt->tune->first), y = ps.alternative_to_si(alt->tune->second);
+      p.tune = {{std::min(x, y), std::max(x, y)}};
+    }
+    return p;
+  }
+  if (ps.fallback) return Param{{*ps.fallback}, std::nullopt};
+  if (!ps.alternative_key.empty())
+    st.missing(ps.key, b.number_text() + " (or " + std::string(ps.alternative_key) + ", " +
+                           bounds_of(ps.alternative_range).number_text() + ")");
+  st.missing(ps.key, b.number_text() + ", a non-empty list of such numbers or a { from, to, points } table");
+}
+
 Step read_step_table(const Table& st, const std::vector<Counter>& counters) {
   // Exactly one kind key names the step and the mode it acts on.
+  const std::vector<std::string_view> step_kinds = step_table_kinds();
   std::vector<std::pair<std::string_view, const toml::node*>> kinds;
   for (const auto& kv : st.members())
     if (std::find(step_kinds.begin(), step_kinds.end(), kv.first) != step_kinds.end()) kinds.push_back(kv);
@@ -258,55 +316,39 @@ Step read_step_table(const Table& st, const std::vector<Counter>& counters) {
 
   Step s;
   s.line = st.line();
-  const std::string_view kind = kinds[0].first;
-  s.mode = *st.choice(kind, {"a", "b"}) == 0 ? Mode::A : Mode::B;
+  s.type = steps::find_step_type(kinds[0].first);
+  const steps::StepType& type = *s.type;
+  s.mode = *st.choice(type.name, {"a", "b"}) == 0 ? Mode::A : Mode::B;
 
-  if (kind == "tap") {
-    s.kind = StepKind::tap;
-    st.only({"tap", "transmissivity", "counter", "counts"});
-    s.params["transmissivity"] = st.required_param("transmissivity", unit_open_closed, true);
-    s.counter = read_counter_name(st, counters);
-    s.counts = static_cast<int>(st.integer("counts", 1, max_cutoff).value_or(1));
-    const Counter* c = nullptr;
-    for (const auto& k : counters)
-      if (k.name == s.counter) c = &k;
-    if (s.counts > 1 && c->kind == CounterKind::threshold)
-      st.fail("counts", "1 with the threshold counter '" + s.counter + "'",
-              "counts > 1 needs kind = \"resolving\"");
-  } else if (kind == "add") {
-    s.kind = StepKind::add;
-    st.only({"add", "squeezing", "counter"});
-    s.params["squeezing"] = st.required_param("squeezing", Bounds{0.0, 3.0, true, true}, true);
-    s.counter = read_counter_name(st, counters);
-  } else if (kind == "amplify") {
-    s.kind = StepKind::amplify;
-    st.only({"amplify", "gain", "max_photons"});
-    s.params["gain"] = st.required_param("gain", positive, true);
-    const auto n = st.integer("max_photons", 1, max_cutoff);
-    if (!n) st.missing("max_photons", "an integer in [1, " + std::to_string(max_cutoff) + "]");
-    s.max_photons = static_cast<int>(*n);
-  } else if (kind == "scissors") {
-    s.kind = StepKind::scissors;
-    st.only({"scissors", "gain", "counter", "photon_source_efficiency"});
-    s.params["gain"] = st.required_param("gain", positive, true);
-    s.counter = read_counter_name(st, counters);
-    s.params["photon_source_efficiency"] =
-        st.param("photon_source_efficiency", unit_closed, true).value_or(Param{{1.0}, std::nullopt});
-  } else {
-    s.kind = StepKind::loss;
-    st.only({"loss", "transmissivity", "loss_db", "temperature_k"});
-    const auto t = st.param("transmissivity", unit_open_closed, true);
-    const auto db = st.param("loss_db", non_negative, true);
-    if (t && db) st.fail("loss_db", "only one of transmissivity and loss_db");
-    if (!t && !db) st.missing("transmissivity", "a number in (0, 1] (or loss_db, a number >= 0)");
-    Param tau = t ? *t : Param{};
-    if (db) {
-      for (double x : db->values) tau.values.push_back(transmissivity_from_db(x));
-      // A tuned loss in dB is tuned as the transmissivity it stands for (decreasing in dB).
-      if (db->tune) tau.tune = {{transmissivity_from_db(db->tune->second), transmissivity_from_db(db->tune->first)}};
+  std::vector<std::string_view> known{type.name};
+  for (const auto& ps : type.params) {
+    known.push_back(ps.key);
+    if (!ps.alternative_key.empty()) known.push_back(ps.alternative_key);
+  }
+  if (type.uses_counter) known.push_back("counter");
+  st.only(known);
+
+  for (const auto& ps : type.params) s.params.push_back(read_step_param(st, ps));
+  if (!type.uses_counter) return s;
+  s.counter = read_counter_name(st, counters);
+  if (type.check) {
+    // Checks against the counter that the schema cannot express, with the first values.
+    const Counter& c = *std::find_if(counters.begin(), counters.end(), [&](const Counter& k) { return k.name == s.counter; });
+    steps::StepSpec spec;
+    spec.type = s.type;
+    spec.mode = s.mode;
+    for (const Param& p : s.params) spec.values.push_back(p.first());
+    steps::CounterModel model;
+    model.kind = c.kind;
+    model.efficiency = c.efficiency.first();
+    model.dark = c.dark_per_gate.first();
+    model.gate_s = c.gate_s;
+    model.reset_s = c.reset_s;
+    try {
+      type.check(spec, model, c.name);
+    } catch (const InputError& e) {
+      st.fail(e.key(), e.expected(), e.hint());
     }
-    s.params["transmissivity"] = tau;
-    s.params["temperature_k"] = st.param("temperature_k", non_negative, true).value_or(Param{{0.0}, std::nullopt});
   }
   return s;
 }
@@ -337,7 +379,7 @@ Protocol read_protocol(const Table& p, const std::vector<Counter>& counters) {
       }
       if (++links > 1) p.doc().fail_at(e, key, "exactly one \"link\" step per protocol", "a second one");
       Step st;
-      st.kind = StepKind::link;
+      st.type = &steps::link_type();
       st.line = Document::line(e);
       out.steps.push_back(st);
     } else if (const auto* t = e.as_table()) {

@@ -67,15 +67,38 @@ fock::Operation add_operation(double squeezing, const CounterModel& counter, int
 
 }  // namespace heraldry::steps
 
-namespace heraldry::steps::detail {
+namespace heraldry::steps {
+
+namespace {
+
+const ParamSchema add_params[] = {
+    {"squeezing", "1", "squeezing parameter s of the adder's two-mode squeezer (gain cosh^2 s)",
+     ParamSchema::Type::number, {0.0, 3.0, true, true}, std::nullopt},
+};
+
+// Heralded on a click of the idler's counter (one count for a resolving one).
+constexpr int herald_reading = 1;
 
 template <class State>
-void apply_add(State& state, const StepSpec& step, StepContext& context) {
+void apply(State& state, const StepSpec& step, StepContext& context) {
   fock::apply(state, step.mode,
-              add_operation(step.squeezing, counter_of(step, context), step.counts, state.cutoff(),
+              add_operation(step.values[0], detail::counter_of(step, context), herald_reading, state.cutoff(),
                             context.weighting),
-              context.work);
+              detail::work_of(context));
 }
-HERALDRY_STEPS_INSTANTIATE(apply_add)
 
-}  // namespace heraldry::steps::detail
+}  // namespace
+
+extern const StepType add_step{
+    .name = "add",
+    .summary = "heralded photon addition: a weak two-mode squeezer with a vacuum idler, the idler counted",
+    .role = StepType::Role::herald,
+    .params = add_params,
+    .uses_counter = true,
+    .check = nullptr,
+    .channels = nullptr,
+    .apply_sector = &apply<fock::SectorState>,
+    .apply_dense = &apply<fock::DenseState>,
+};
+
+}  // namespace heraldry::steps

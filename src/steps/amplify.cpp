@@ -24,22 +24,46 @@ fock::Operation amplify_operation(double gain, int max_photons, int cutoff) {
 
 }  // namespace heraldry::steps
 
-namespace heraldry::steps::detail {
+namespace heraldry::steps {
+
+namespace {
+
+constexpr int max_photons_limit = 400;  // the largest per-mode cutoff the engine accepts
+
+const ParamSchema amplify_params[] = {
+    {"gain", "1", "amplitude gain g of g^n", ParamSchema::Type::number, {0.0, unbounded, true, false}, std::nullopt},
+    {"max_photons", "1", "largest photon number N the physical realisation keeps (K = g^(n-N) on n <= N)",
+     ParamSchema::Type::integer, {1.0, max_photons_limit, false, false}, std::nullopt},
+};
 
 // Also books the weight of the input above N that the physical realisation cuts off, as a
 // fraction of the step's input (0 for the ideal form, whose N is the cutoff itself).
 template <class State>
-void apply_amplify(State& state, const StepSpec& step, StepContext& context) {
+void apply(State& state, const StepSpec& step, StepContext& context) {
   const int cutoff = state.cutoff();
-  if (step.gain > 1.0 && step.max_photons > 0 && step.max_photons < cutoff) {
+  const double gain = step.values[0];
+  const int big_n = static_cast<int>(step.values[1]);
+  if (gain > 1.0 && big_n > 0 && big_n < cutoff) {
     const Eigen::VectorXd p = fock::photon_distribution(state, step.mode);
     const double total = p.sum();
-    const double above = p.tail(cutoff - step.max_photons).sum();
-    if (total > 0.0)
-      context.amplifier_cut_fraction = std::max(context.amplifier_cut_fraction, above / total);
+    const double above = p.tail(cutoff - big_n).sum();
+    if (total > 0.0) context.amplifier_cut_fraction = std::max(context.amplifier_cut_fraction, above / total);
   }
-  fock::apply(state, step.mode, amplify_operation(step.gain, step.max_photons, cutoff), context.work);
+  fock::apply(state, step.mode, amplify_operation(gain, big_n, cutoff), detail::work_of(context));
 }
-HERALDRY_STEPS_INSTANTIATE(apply_amplify)
 
-}  // namespace heraldry::steps::detail
+}  // namespace
+
+extern const StepType amplify_step{
+    .name = "amplify",
+    .summary = "noiseless linear amplification g^n, as the success bound of its best realisation on n <= N",
+    .role = StepType::Role::herald,
+    .params = amplify_params,
+    .uses_counter = false,
+    .check = nullptr,
+    .channels = nullptr,
+    .apply_sector = &apply<fock::SectorState>,
+    .apply_dense = &apply<fock::DenseState>,
+};
+
+}  // namespace heraldry::steps

@@ -43,6 +43,11 @@ double dark_probability(double rate_hz, double gate_s) {
   return -std::expm1(-rate_hz * gate_s);
 }
 
+double dark_per_gate(CounterKind kind, double rate_hz, double gate_s) {
+  const double mean = rate_hz * gate_s;
+  return kind == CounterKind::threshold ? -std::expm1(-mean) : mean;
+}
+
 void validate(const CounterModel& c, const std::string& key) {
   if (!(c.efficiency >= 0.0 && c.efficiency <= 1.0))
     detail::fail(key + ".efficiency", c.efficiency, "a value in [0, 1]");
@@ -117,21 +122,6 @@ double trial_rate_hz(double bandwidth_hz, const std::vector<CounterModel>& count
   double rate = bandwidth_hz;
   for (const auto& c : counters_used) rate = std::min(rate, 1.0 / (c.gate_s + c.reset_s));
   return rate;
-}
-
-std::vector<CounterModel> counters_used(const std::vector<StepSpec>& steps,
-                                        const std::vector<CounterModel>& counters) {
-  std::vector<CounterModel> out;
-  std::vector<int> seen;
-  for (const auto& s : steps) {
-    if (s.kind != StepKind::tap && s.kind != StepKind::add && s.kind != StepKind::scissors) continue;
-    if (s.counter < 0 || s.counter >= static_cast<int>(counters.size()))
-      detail::fail("counter", s.counter, "an index into the counters of the point");
-    if (std::find(seen.begin(), seen.end(), s.counter) != seen.end()) continue;
-    seen.push_back(s.counter);
-    out.push_back(counters[s.counter]);
-  }
-  return out;
 }
 
 }  // namespace heraldry::steps

@@ -1,5 +1,5 @@
 // Internals shared by the step files: small combinatorics, the per-shift merge of Kraus
-// operators, and the step registry types. Not part of the public API.
+// operators, access to the step context. Not part of the public API.
 #pragma once
 
 #include <string>
@@ -31,43 +31,10 @@ double power(double x, int k);
 /// round-off; zero operators disappear.
 fock::Operation merge_by_shift(const std::vector<fock::ShiftOperator>& kraus);
 
-// ------------------------------------------------------------------ the step registry
-
-/// What a step may read besides its own spec, and what it reports back.
-struct StepContext {
-  const PointSpec& point;             // channels and counters
-  Weighting weighting = Weighting::full;
-  fock::Workspace& work;
-  double amplifier_cut_fraction = 0.0;  // largest over the amplify steps run so far
-};
-
-/// The counter a step names; InputError if the index is not one of the point's counters.
+/// The counter of a step whose kind uses one; InputError when the context has none.
 const CounterModel& counter_of(const StepSpec& step, const StepContext& context);
 
-/// One function per step kind, for both engines (defined in the step's own file, explicitly
-/// instantiated for fock::SectorState and fock::DenseState).
-template <class State>
-using StepFunction = void (*)(State&, const StepSpec&, StepContext&);
-
-template <class State> void apply_link(State&, const StepSpec&, StepContext&);
-template <class State> void apply_tap(State&, const StepSpec&, StepContext&);
-template <class State> void apply_add(State&, const StepSpec&, StepContext&);
-template <class State> void apply_amplify(State&, const StepSpec&, StepContext&);
-template <class State> void apply_scissors(State&, const StepSpec&, StepContext&);
-template <class State> void apply_loss(State&, const StepSpec&, StepContext&);
-
-/// The registry: StepKind -> function. A new step kind is one file and one line here.
-template <class State>
-StepFunction<State> step_function(StepKind kind);
-
-/// Applies one step through the registry.
-template <class State>
-void apply_step(State& state, const StepSpec& step, StepContext& context) {
-  step_function<State>(step.kind)(state, step, context);
-}
-
-#define HERALDRY_STEPS_INSTANTIATE(name)                                                        \
-  template void name<fock::SectorState>(fock::SectorState&, const StepSpec&, StepContext&);   \
-  template void name<fock::DenseState>(fock::DenseState&, const StepSpec&, StepContext&);
+/// The workspace of the context (one per thread; a local one if the caller gave none).
+fock::Workspace& work_of(StepContext& context);
 
 }  // namespace heraldry::steps::detail

@@ -1,14 +1,25 @@
-// Step `link`: each mode through its own link channel (channel_a on A, channel_b on B), as
-// computed by the link model for the point's distance.
+// Step `link`: each mode through its own link channel (channel a on mode a, channel b on mode
+// b), as the link model computes them for the point's distance. Exactly one per protocol.
 #include "steps/detail.hpp"
 
-namespace heraldry::steps::detail {
+namespace heraldry::steps {
 
-template <class State>
-void apply_link(State& state, const StepSpec&, StepContext& context) {
-  fock::apply_channel(state, Mode::A, context.point.channel_a, context.work);
-  fock::apply_channel(state, Mode::B, context.point.channel_b, context.work);
-}
-HERALDRY_STEPS_INSTANTIATE(apply_link)
+namespace {
 
-}  // namespace heraldry::steps::detail
+Channels channels(const StepSpec&, const StepContext& context) { return {context.link_a, context.link_b}; }
+
+}  // namespace
+
+extern const StepType link_step{
+    .name = "link",
+    .summary = "the link itself: each mode through its own thermal-loss channel",
+    .role = StepType::Role::link,
+    .params = {},
+    .uses_counter = false,
+    .check = nullptr,
+    .channels = &channels,
+    .apply_sector = nullptr,
+    .apply_dense = nullptr,
+};
+
+}  // namespace heraldry::steps

@@ -73,15 +73,37 @@ fock::Operation scissors_operation(double gain, double source_efficiency,
 
 }  // namespace heraldry::steps
 
-namespace heraldry::steps::detail {
+namespace heraldry::steps {
+
+namespace {
+
+const ParamSchema scissors_params[] = {
+    {"gain", "1", "amplitude gain g = sqrt(kappa / (1 - kappa)) of the first beam splitter", ParamSchema::Type::number,
+     {0.0, unbounded, true, false}, std::nullopt},
+    {"photon_source_efficiency", "1", "probability that the ancilla photon is there", ParamSchema::Type::number,
+     {0.0, 1.0, false, false}, 1.0},
+};
 
 template <class State>
-void apply_scissors(State& state, const StepSpec& step, StepContext& context) {
+void apply(State& state, const StepSpec& step, StepContext& context) {
   fock::apply(state, step.mode,
-              scissors_operation(step.gain, step.photon_source_efficiency, counter_of(step, context),
-                                 state.cutoff(), context.weighting),
-              context.work);
+              scissors_operation(step.values[0], step.values[1], detail::counter_of(step, context), state.cutoff(),
+                                 context.weighting),
+              detail::work_of(context));
 }
-HERALDRY_STEPS_INSTANTIATE(apply_scissors)
 
-}  // namespace heraldry::steps::detail
+}  // namespace
+
+extern const StepType scissors_step{
+    .name = "scissors",
+    .summary = "quantum scissors with a single-photon source and two counters (herald: exactly one fires)",
+    .role = StepType::Role::herald,
+    .params = scissors_params,
+    .uses_counter = true,
+    .check = nullptr,
+    .channels = nullptr,
+    .apply_sector = &apply<fock::SectorState>,
+    .apply_dense = &apply<fock::DenseState>,
+};
+
+}  // namespace heraldry::steps

@@ -30,15 +30,47 @@ fock::Operation tap_operation(double transmissivity, const CounterModel& counter
 
 }  // namespace heraldry::steps
 
-namespace heraldry::steps::detail {
+namespace heraldry::steps {
+
+namespace {
+
+constexpr int max_counts = 400;  // the largest per-mode cutoff the engine accepts
+
+const ParamSchema tap_params[] = {
+    {"transmissivity", "1", "tap beam-splitter transmissivity (power kept in the mode)", ParamSchema::Type::number,
+     {0.0, 1.0, true, false}, std::nullopt},
+    {"counts", "1", "herald on exactly this many counts (1 = a click for a threshold counter)",
+     ParamSchema::Type::integer, {1.0, max_counts, false, false}, 1.0},
+};
+
+void check(const StepSpec& step, const CounterModel& counter, std::string_view counter_name) {
+  const double counts = step.value("counts");
+  if (counts > 1.0 && counter.kind == CounterKind::threshold)
+    throw InputError("", 0, "counts", std::to_string(static_cast<int>(counts)),
+                     "1 with the threshold counter '" + std::string(counter_name) + "'",
+                     "counts > 1 needs kind = \"resolving\"");
+}
 
 template <class State>
-void apply_tap(State& state, const StepSpec& step, StepContext& context) {
+void apply(State& state, const StepSpec& step, StepContext& context) {
   fock::apply(state, step.mode,
-              tap_operation(step.transmissivity, counter_of(step, context), step.counts, state.cutoff(),
-                            context.weighting),
-              context.work);
+              tap_operation(step.values[0], detail::counter_of(step, context), static_cast<int>(step.values[1]),
+                            state.cutoff(), context.weighting),
+              detail::work_of(context));
 }
-HERALDRY_STEPS_INSTANTIATE(apply_tap)
 
-}  // namespace heraldry::steps::detail
+}  // namespace
+
+extern const StepType tap_step{
+    .name = "tap",
+    .summary = "beam-splitter tap into a photon counter, heralded on a click (or on exactly `counts` counts)",
+    .role = StepType::Role::herald,
+    .params = tap_params,
+    .uses_counter = true,
+    .check = &check,
+    .channels = nullptr,
+    .apply_sector = &apply<fock::SectorState>,
+    .apply_dense = &apply<fock::DenseState>,
+};
+
+}  // namespace heraldry::steps

@@ -10,6 +10,7 @@
 #include <thread>
 
 #include "heraldry/sweep.hpp"
+#include "sweep/executor.hpp"
 
 #if defined(HERALDRY_HAVE_OPENMP)
 #include <omp.h>
@@ -59,5 +60,33 @@ void dispatch(std::span<const std::size_t> todo, int threads,
     if (after_chunk) after_chunk(done);
   }
 }
+
+namespace {
+
+// The jobs in chunks of the dispatcher; results kept per chunk and stored on the calling thread
+// once the chunk is done, in job order.
+class LocalExecutor final : public Executor {
+public:
+  explicit LocalExecutor(int threads) : threads_(threads) {}
+  int ranks() const override { return 1; }
+  void run(std::span<const Job> jobs, const ExecutorHooks& hooks) override {
+    std::vector<std::size_t> todo(jobs.size());
+    for (std::size_t j = 0; j < todo.size(); ++j) todo[j] = j;
+    std::vector<point::PointResult> results(jobs.size());
+    std::size_t stored = 0;
+    dispatch(todo, threads_, [&](std::size_t j) { results[j] = hooks.evaluate(jobs[j]); }, hooks.stop,
+             [&](std::size_t done) {
+               for (; stored < done; ++stored) hooks.store(Outcome{jobs[stored], results[stored]});
+               if (hooks.tick) hooks.tick();
+             });
+  }
+
+private:
+  int threads_;
+};
+
+}  // namespace
+
+std::unique_ptr<Executor> local_executor(int threads) { return std::make_unique<LocalExecutor>(threads); }
 
 }  // namespace heraldry::sweep

@@ -9,13 +9,8 @@ namespace heraldry::sweep {
 
 namespace {
 
-const char* units_of(const std::string& key) {
-  if (key == "temperature_k") return "K";
-  return "1";
-}
-
-std::string describe_step_param(const scenario::Step& step, const std::string& key) {
-  return std::string(scenario::to_string(step.kind)) + " on mode " + to_string(step.mode) + ": " + key;
+std::string describe_step_param(const scenario::Step& step, std::string_view key) {
+  return std::string(step.type->name) + " on mode " + to_string(step.mode) + ": " + std::string(key);
 }
 
 bool protocol_uses_counter(const scenario::Protocol& p, const std::string& name) {
@@ -59,10 +54,14 @@ Plan make_plan(const scenario::Scenario& sc) {
     pp.axes.push_back({"distance_m", "m", "distance between source and receiver (one-way) or between the receivers (midpoint)",
                        sc.link.distances_m, -1, -1, ""});
     for (std::size_t s = 0; s < proto.steps.size(); ++s) {
-      for (const auto& [key, param] : proto.steps[s].params) {
+      const scenario::Step& step = proto.steps[s];
+      for (std::size_t k = 0; k < step.params.size(); ++k) {
+        const scenario::Param& param = step.params[k];
         if (!param.swept()) continue;
-        pp.axes.push_back({"step" + std::to_string(s + 1) + "." + key, units_of(key),
-                           describe_step_param(proto.steps[s], key), param.values, static_cast<int>(s), -1, key});
+        const steps::ParamSchema& ps = step.type->params[k];
+        pp.axes.push_back({"step" + std::to_string(s + 1) + "." + std::string(ps.key), std::string(ps.units),
+                           describe_step_param(step, ps.key), param.values, static_cast<int>(s), -1,
+                           std::string(ps.key)});
       }
     }
     for (std::size_t c = 0; c < sc.counters.size(); ++c) {
@@ -101,16 +100,34 @@ double value_at(const ProtocolPlan& pp, std::span<const std::size_t> index, int 
 
 }  // namespace
 
-steps::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
+point::Source source_of(const scenario::Scenario& sc) {
+  point::Source src;
+  src.squeezing_r = sc.source.squeezing_r;
+  src.thermal_photons = sc.source.thermal_photons;
+  src.bandwidth_hz = sc.source.bandwidth_hz;
+  src.frequency_hz = sc.source.frequency_hz;
+  return src;
+}
+
+point::Numerics numerics_of(const scenario::Scenario& sc) {
+  point::Numerics n;
+  n.engine = sc.numerics.engine == scenario::EngineKind::dense ? fock::Engine::dense : fock::Engine::sector;
+  n.cutoff = sc.numerics.cutoff;
+  n.tolerance = sc.numerics.tolerance;
+  n.max_memory_bytes = sc.numerics.max_memory_mb * bytes_per_mebibyte;
+  n.max_cutoff = sc.numerics.max_cutoff;
+  return n;
+}
+
+point::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
                          std::span<const std::size_t> index, double distance_m) {
   const ProtocolPlan& pp = plan.protocols.at(protocol);
   const scenario::Protocol& proto = sc.protocols.at(protocol);
   if (index.size() != pp.axes.size()) throw std::invalid_argument("resolve: index rank differs from the grid");
   const double d = distance_m >= 0.0 ? distance_m : pp.axes[0].values[index[0]];
 
-  steps::PointSpec spec;
-  spec.squeezing_r = squeezing_parameter_from_db(sc.source.squeezing_db);
-  spec.thermal_photons = sc.source.thermal_photons;
+  point::PointSpec spec;
+  spec.source = source_of(sc);
   const link::LinkBudget budget = link::link_budget(sc.link.model, d);
   spec.channel_a = budget.a.channel;
   spec.channel_b = budget.b.channel;
@@ -119,22 +136,12 @@ steps::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
   for (std::size_t s = 0; s < proto.steps.size(); ++s) {
     const scenario::Step& step = proto.steps[s];
     steps::StepSpec out;
-    out.kind = step.kind;
+    out.type = step.type;
     out.mode = step.mode;
-    out.counts = step.counts;
-    out.max_photons = step.max_photons;
-    const int si = static_cast<int>(s);
-    auto param = [&](const std::string& key, double fallback) {
-      const auto it = step.params.find(key);
-      return it == step.params.end() ? fallback : value_at(pp, index, si, -1, key, it->second);
-    };
-    out.transmissivity = param("transmissivity", 1.0);
-    out.gain = param("gain", 1.0);
-    out.squeezing = param("squeezing", 0.0);
-    out.photon_source_efficiency = param("photon_source_efficiency", 1.0);
-    if (step.kind == scenario::StepKind::loss)
-      out.bath_photons = link::planck_occupation(sc.source.frequency_hz, param("temperature_k", 0.0));
-    if (!step.counter.empty()) {
+    for (std::size_t k = 0; k < step.params.size(); ++k)
+      out.values.push_back(value_at(pp, index, static_cast<int>(s), -1, std::string(step.type->params[k].key),
+                                    step.params[k]));
+    if (step.type->uses_counter) {
       const auto it = std::find_if(sc.counters.begin(), sc.counters.end(),
                                    [&](const scenario::Counter& c) { return c.name == step.counter; });
       if (it == sc.counters.end()) throw std::logic_error("resolve: undefined counter survived validation");
@@ -144,12 +151,10 @@ steps::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
         m.kind = it->kind;
         m.efficiency = value_at(pp, index, -1, static_cast<int>(ci), "efficiency", it->efficiency);
         m.dark = value_at(pp, index, -1, static_cast<int>(ci), "dark_per_gate", it->dark_per_gate);
-        if (it->dark_rate_hz && it->dark_rate_hz->swept()) {
-          // Poissonian dark counts over the gate: click probability 1 - exp(-R t) (threshold) or
-          // mean count R t (resolving), as the scenario reader converts a single rate.
-          const double rate = value_at(pp, index, -1, static_cast<int>(ci), "dark_rate_hz", *it->dark_rate_hz);
-          m.dark = it->kind == scenario::CounterKind::threshold ? -std::expm1(-rate * it->gate_s) : rate * it->gate_s;
-        }
+        // A swept dark rate stays a rate on its axis (Hz); converted per gate here.
+        if (it->dark_rate_hz && it->dark_rate_hz->swept())
+          m.dark = steps::dark_per_gate(
+              it->kind, value_at(pp, index, -1, static_cast<int>(ci), "dark_rate_hz", *it->dark_rate_hz), it->gate_s);
         m.gate_s = it->gate_s;
         m.reset_s = it->reset_s;
         counter_slot[ci] = static_cast<int>(spec.counters.size());
@@ -157,20 +162,10 @@ steps::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
       }
       out.counter = counter_slot[ci];
     }
-    spec.steps.push_back(out);
+    spec.steps.push_back(std::move(out));
   }
-  spec.engine = sc.numerics.engine == scenario::EngineKind::dense ? fock::Engine::dense : fock::Engine::sector;
-  spec.cutoff = sc.numerics.cutoff;
-  spec.tolerance = sc.numerics.tolerance;
-  spec.max_memory_bytes = sc.numerics.max_memory_mb * 1024.0 * 1024.0;
-  spec.max_cutoff = sc.numerics.max_cutoff;
+  spec.numerics = numerics_of(sc);
   return spec;
-}
-
-double trial_rate_hz(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
-                     std::span<const std::size_t> index) {
-  const steps::PointSpec spec = resolve(sc, plan, protocol, index);
-  return steps::trial_rate_hz(sc.source.bandwidth_hz, steps::counters_used(spec.steps, spec.counters));
 }
 
 }  // namespace heraldry::sweep

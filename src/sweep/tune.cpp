@@ -1,5 +1,5 @@
 // `heraldry tune`: the tunable parameters of one protocol optimised at one distance.
-// Every evaluation is one point through sweep::resolve + steps::evaluate.
+// Every evaluation is one point through sweep::resolve + point::evaluate.
 #include "heraldry/tune.hpp"
 
 #include <algorithm>
@@ -10,7 +10,7 @@
 #include <boost/math/tools/minima.hpp>
 
 #include "heraldry/gaussian.hpp"
-#include "heraldry/steps.hpp"
+#include "heraldry/point.hpp"
 #include "heraldry/sweep.hpp"
 #include "scenario/suggest.hpp"
 
@@ -29,8 +29,8 @@ std::string number_text(double x) {
 std::string quoted(std::string_view s) { return "\"" + std::string(s) + "\""; }
 
 // The dotted file key of a step parameter, as scenario messages write it (0-based indices).
-std::string file_key(std::size_t protocol, std::size_t step, const std::string& key) {
-  return "protocol[" + std::to_string(protocol) + "].steps[" + std::to_string(step) + "]." + key;
+std::string file_key(std::size_t protocol, std::size_t step, std::string_view key) {
+  return "protocol[" + std::to_string(protocol) + "].steps[" + std::to_string(step) + "]." + std::string(key);
 }
 
 // The scenario with only protocol p, every swept parameter of it (and of the counters) pinned
@@ -39,7 +39,7 @@ scenario::Scenario pinned(const scenario::Scenario& sc, std::size_t p) {
   scenario::Scenario w = sc;
   w.protocols = {sc.protocols.at(p)};
   for (auto& step : w.protocols[0].steps)
-    for (auto& [key, param] : step.params) param.values = {param.first()};
+    for (auto& param : step.params) param.values = {param.first()};
   for (auto& c : w.counters) {
     c.efficiency.values = {c.efficiency.first()};
     c.dark_per_gate.values = {c.dark_per_gate.first()};
@@ -59,28 +59,20 @@ public:
     for (std::size_t i = 0; i < knobs_.size(); ++i) {
       const Knob& k = knobs_[i];
       if (k.step < 0)
-        w_.source.squeezing_db = values[i];
+        w_.source.squeezing_r = squeezing_parameter_from_db(values[i]);
       else
-        w_.protocols[0].steps[static_cast<std::size_t>(k.step)].params.at(k.key).values = {values[i]};
+        w_.protocols[0].steps[static_cast<std::size_t>(k.step)].params[static_cast<std::size_t>(k.param)].values = {
+            values[i]};
     }
     const sweep::Plan plan = sweep::make_plan(w_);
     const std::vector<std::size_t> index(plan.protocols[0].axes.size(), 0);
-    const steps::PointSpec spec = sweep::resolve(w_, plan, 0, index, d_);
-    const steps::PointResult r = steps::evaluate(spec);
+    const point::PointResult r = point::evaluate(sweep::resolve(w_, plan, 0, index, d_));
     ++count_;
 
     Figures f;
-    f.status = r.status;
-    f.cutoff = r.cutoff;
-    f.truncation_error = r.truncation_error;
+    static_cast<point::PointResult&>(f) = r;
     f.objective = minus_infinity;
     if (r.status != Status::ok) return f;
-    const double trials = steps::trial_rate_hz(w_.source.bandwidth_hz, steps::counters_used(spec.steps, spec.counters));
-    f.success_probability = r.success_probability;
-    f.heralding_rate_hz = trials * r.success_probability;
-    f.false_herald_fraction = r.false_herald_fraction;
-    f.log_negativity = r.log_negativity;
-    f.fidelity = r.fidelity;
     f.feasible = (!options_.min_rate_hz || f.heralding_rate_hz >= *options_.min_rate_hz) &&
                  (!options_.max_false_herald_fraction ||
                   f.false_herald_fraction <= *options_.max_false_herald_fraction);
@@ -240,18 +232,22 @@ Objective objective_from_string(std::string_view name) {
 
 std::vector<Knob> knobs(const scenario::Scenario& sc, std::size_t protocol) {
   std::vector<Knob> out;
-  if (sc.source.squeezing_db_tune)
-    out.push_back({"source.squeezing_db", "dB", "two-mode squeezing at the source", sc.source.squeezing_db_tune->first,
-                   sc.source.squeezing_db_tune->second, -1, "squeezing_db"});
+  if (sc.source.squeezing_r_tune)
+    out.push_back({"source.squeezing_db", "dB", "two-mode squeezing at the source",
+                   squeezing_db_from_parameter(sc.source.squeezing_r_tune->first),
+                   squeezing_db_from_parameter(sc.source.squeezing_r_tune->second), -1, -1});
   const scenario::Protocol& p = sc.protocols.at(protocol);
-  for (std::size_t s = 0; s < p.steps.size(); ++s)
-    for (const auto& [key, param] : p.steps[s].params) {
+  for (std::size_t s = 0; s < p.steps.size(); ++s) {
+    const scenario::Step& step = p.steps[s];
+    for (std::size_t k = 0; k < step.params.size(); ++k) {
+      const scenario::Param& param = step.params[k];
       if (!param.tune) continue;
-      out.push_back({"step" + std::to_string(s + 1) + "." + key, key == "temperature_k" ? "K" : "1",
-                     std::string(scenario::to_string(p.steps[s].kind)) + " on mode " + to_string(p.steps[s].mode) +
-                         ": " + key,
-                     param.tune->first, param.tune->second, static_cast<int>(s), key});
+      const steps::ParamSchema& ps = step.type->params[k];
+      out.push_back({"step" + std::to_string(s + 1) + "." + std::string(ps.key), std::string(ps.units),
+                     std::string(step.type->name) + " on mode " + to_string(step.mode) + ": " + std::string(ps.key),
+                     param.tune->first, param.tune->second, static_cast<int>(s), static_cast<int>(k)});
     }
+  }
   return out;
 }
 
@@ -283,7 +279,8 @@ std::size_t check(const scenario::Scenario& sc, const Options& options) {
     std::string keys = "source.squeezing_db";
     const scenario::Protocol& proto = sc.protocols[p];
     for (std::size_t s = 0; s < proto.steps.size(); ++s)
-      for (const auto& [key, param] : proto.steps[s].params) keys += ", " + file_key(p, s, key);
+      for (const auto& ps : proto.steps[s].type->params)
+        if (ps.type == steps::ParamSchema::Type::number) keys += ", " + file_key(p, s, ps.key);
     throw InputError(sc.path, 0, "--protocol", quoted(options.protocol),
                      "a protocol with a parameter written { tune = [lo, hi] }",
                      "its tunable keys: " + keys);
@@ -333,12 +330,10 @@ Result run(const scenario::Scenario& sc, const Options& options) {
   res.evaluations = eval.count();
 
   // The bare link with the source of the optimum (its squeezing, if tuned).
-  double squeezing_db = sc.source.squeezing_db;
+  point::Source source = sweep::source_of(sc);
   for (std::size_t i = 0; i < res.knobs.size(); ++i)
-    if (res.knobs[i].step < 0 && res.feasible) squeezing_db = res.best[i];
-  const link::LinkBudget budget = link::link_budget(sc.link.model, res.distance_m);
-  auto bare = gaussian::tmst(squeezing_parameter_from_db(squeezing_db), sc.source.thermal_photons);
-  bare = gaussian::apply(gaussian::apply(bare, Mode::A, budget.a.channel), Mode::B, budget.b.channel);
+    if (res.knobs[i].step < 0 && res.feasible) source.squeezing_r = squeezing_parameter_from_db(res.best[i]);
+  const auto bare = point::bare_state(source, sc.link.model, res.distance_m);
   res.bare_log_negativity = gaussian::log_negativity(bare);
   res.bare_fidelity = gaussian::fidelity(bare);
   return res;

@@ -1,5 +1,6 @@
 // The point evaluator: source, Gaussian prefix, one conversion to Fock space, the remaining
-// steps as Kraus sums, the automatic cutoff, and the figures of merit (PHYSICS.md §0.1).
+// steps as Kraus sums, the automatic cutoff, the figures of merit and the heralding rate
+// (docs/physics.md §0.1).
 #include <algorithm>
 #include <cmath>
 #include <limits>
@@ -8,9 +9,15 @@
 
 #include "heraldry/gaussian.hpp"
 #include "heraldry/measures.hpp"
-#include "steps/detail.hpp"
+#include "heraldry/point.hpp"
 
-namespace heraldry::steps {
+namespace heraldry::point {
+
+using steps::CounterModel;
+using steps::StepContext;
+using steps::StepSpec;
+using steps::StepType;
+using steps::Weighting;
 
 namespace {
 
@@ -32,41 +39,59 @@ bool within(double& x, double lo, double hi, double slack) {
   return true;
 }
 
+[[noreturn]] void fail(const std::string& key, double value, const std::string& expected) {
+  const bool integral = std::abs(value) < 1e15 && value == std::floor(value);
+  throw InputError("", 0, key, integral ? std::to_string(static_cast<long long>(value)) : std::to_string(value),
+                   expected);
+}
+
 void check_channel(const link::Channel& c, const std::string& key) {
   if (!(c.transmissivity >= 0.0 && c.transmissivity <= 1.0))
-    detail::fail(key + ".transmissivity", c.transmissivity, "a value in [0, 1]");
+    fail(key + ".transmissivity", c.transmissivity, "a value in [0, 1]");
   if (!(c.bath_photons >= 0.0) || !std::isfinite(c.bath_photons))
-    detail::fail(key + ".bath_photons", c.bath_photons, "a finite occupation >= 0");
+    fail(key + ".bath_photons", c.bath_photons, "a finite occupation >= 0");
+}
+
+const CounterModel* counter_of(const PointSpec& spec, const StepSpec& s) {
+  if (!s.type->uses_counter) return nullptr;
+  return &spec.counters[static_cast<std::size_t>(s.counter)];
 }
 
 void check_point(const PointSpec& spec) {
-  if (!(spec.squeezing_r >= 0.0) || !std::isfinite(spec.squeezing_r))
-    detail::fail("source.squeezing", spec.squeezing_r, "a finite squeezing parameter >= 0");
-  if (!(spec.thermal_photons >= 0.0) || !std::isfinite(spec.thermal_photons))
-    detail::fail("source.thermal_photons", spec.thermal_photons, "a finite occupation >= 0");
+  const Source& src = spec.source;
+  if (!(src.squeezing_r >= 0.0) || !std::isfinite(src.squeezing_r))
+    fail("source.squeezing", src.squeezing_r, "a finite squeezing parameter >= 0");
+  if (!(src.thermal_photons >= 0.0) || !std::isfinite(src.thermal_photons))
+    fail("source.thermal_photons", src.thermal_photons, "a finite occupation >= 0");
+  if (!(src.bandwidth_hz > 0.0) || !std::isfinite(src.bandwidth_hz))
+    fail("source.bandwidth", src.bandwidth_hz, "a finite bandwidth > 0");
   check_channel(spec.channel_a, "link.a");
   check_channel(spec.channel_b, "link.b");
-  if (!(spec.tolerance > 0.0 && spec.tolerance < 1.0))
-    detail::fail("numerics.tolerance", spec.tolerance, "a value in (0, 1)");
-  if (spec.cutoff < 0) detail::fail("numerics.cutoff", spec.cutoff, "an integer >= 0 (0: auto)");
-  if (!(spec.max_memory_bytes > 0.0)) detail::fail("numerics.max_memory", spec.max_memory_bytes, "a size > 0");
-  if (spec.max_cutoff < 1) detail::fail("numerics.max_cutoff", spec.max_cutoff, "an integer >= 1");
-  for (std::size_t i = 0; i < spec.counters.size(); ++i) validate(spec.counters[i], "counters[" + std::to_string(i) + "]");
+  const Numerics& n = spec.numerics;
+  if (!(n.tolerance > 0.0 && n.tolerance < 1.0)) fail("numerics.tolerance", n.tolerance, "a value in (0, 1)");
+  if (n.cutoff < 0) fail("numerics.cutoff", n.cutoff, "an integer >= 0 (0: auto)");
+  if (!(n.max_memory_bytes > 0.0)) fail("numerics.max_memory", n.max_memory_bytes, "a size > 0");
+  if (n.max_cutoff < 1) fail("numerics.max_cutoff", n.max_cutoff, "an integer >= 1");
+  for (std::size_t i = 0; i < spec.counters.size(); ++i)
+    steps::validate(spec.counters[i], "counters[" + std::to_string(i) + "]");
   for (const auto& s : spec.steps) {
-    if (s.kind == StepKind::loss) check_channel({s.transmissivity, s.bath_photons}, "loss");
-    if (s.kind == StepKind::tap || s.kind == StepKind::add || s.kind == StepKind::scissors) {
+    if (s.type == nullptr) throw std::invalid_argument("heraldry::point::evaluate: a step without a kind");
+    if (s.values.size() != s.type->params.size())
+      throw std::invalid_argument("heraldry::point::evaluate: step '" + std::string(s.type->name) + "' has " +
+                                  std::to_string(s.values.size()) + " values for " +
+                                  std::to_string(s.type->params.size()) + " parameters");
+    if (s.type->uses_counter) {
       if (s.counter < 0 || s.counter >= static_cast<int>(spec.counters.size()))
-        detail::fail(std::string(to_string(s.kind)) + ".counter", s.counter,
-                     "the index of one of the " + std::to_string(spec.counters.size()) + " counters of the point");
-      if (s.kind != StepKind::scissors) reading_probability(spec.counters[s.counter], s.counts, 0);  // throws if bad
+        fail(std::string(s.type->name) + ".counter", s.counter,
+             "the index of one of the " + std::to_string(spec.counters.size()) + " counters of the point");
+      if (s.type->check) s.type->check(s, spec.counters[static_cast<std::size_t>(s.counter)], "");
     }
   }
 }
 
-bool uses_counters(const std::vector<StepSpec>& steps) {
-  return std::any_of(steps.begin(), steps.end(), [](const StepSpec& s) {
-    return s.kind == StepKind::tap || s.kind == StepKind::add || s.kind == StepKind::scissors;
-  });
+bool uses_counters(const std::vector<StepSpec>& steps, std::size_t first) {
+  return std::any_of(steps.begin() + static_cast<std::ptrdiff_t>(first), steps.end(),
+                     [](const StepSpec& s) { return s.type->uses_counter; });
 }
 
 // Dark counts are the only source of counts without photons: without them the genuine weights
@@ -74,11 +99,20 @@ bool uses_counters(const std::vector<StepSpec>& steps) {
 bool any_dark_counts(const PointSpec& spec, std::size_t first) {
   for (std::size_t i = first; i < spec.steps.size(); ++i) {
     const auto& s = spec.steps[i];
-    if ((s.kind == StepKind::tap || s.kind == StepKind::add || s.kind == StepKind::scissors) &&
-        spec.counters[s.counter].dark > 0.0)
-      return true;
+    if (s.type->uses_counter && spec.counters[static_cast<std::size_t>(s.counter)].dark > 0.0) return true;
   }
   return false;
+}
+
+StepContext context_for(const PointSpec& spec, const StepSpec& s, Weighting weighting, fock::Workspace* work) {
+  StepContext c;
+  c.counter = counter_of(spec, s);
+  c.frequency_hz = spec.source.frequency_hz;
+  c.link_a = spec.channel_a;
+  c.link_b = spec.channel_b;
+  c.weighting = weighting;
+  c.work = work;
+  return c;
 }
 
 fock::SectorState convert(const gaussian::StandardForm& f, int n, fock::SectorState*) { return fock::sector_state(f, n); }
@@ -122,38 +156,44 @@ public:
 
   Run run(int cutoff, Weighting weighting) {
     State state = make_state<State>(form_, cutoff);
-    detail::StepContext context{spec_, weighting, work_};
-    for (std::size_t i = first_; i < spec_.steps.size(); ++i) detail::apply_step(state, spec_.steps[i], context);
+    double cut = 0.0;
+    for (std::size_t i = first_; i < spec_.steps.size(); ++i) {
+      StepContext context = context_for(spec_, spec_.steps[i], weighting, &work_);
+      context.amplifier_cut_fraction = cut;
+      steps::apply(state, spec_.steps[i], context);
+      cut = context.amplifier_cut_fraction;
+    }
     const double p = state.trace(), ledger = state.truncation_loss();
-    return Run{std::move(state), p, ledger, context.amplifier_cut_fraction};
+    return Run{std::move(state), p, ledger, cut};
   }
 
   PointResult evaluate() {
     PointResult result;
-    const fock::Engine engine = spec_.engine;
-    const double max_bytes = spec_.max_memory_bytes;
-    const double tol = spec_.tolerance;
+    const Numerics& numerics = spec_.numerics;
+    const fock::Engine engine = numerics.engine;
+    const double max_bytes = numerics.max_memory_bytes;
+    const double tol = numerics.tolerance;
     std::optional<Run> last;
     int last_cutoff = -1;
     int needed = 0;
 
-    if (spec_.cutoff > 0) {
-      const double bytes = fock::memory_bytes_for(engine, spec_.cutoff);
+    if (numerics.cutoff > 0) {
+      const double bytes = fock::memory_bytes_for(engine, numerics.cutoff);
       if (bytes > max_bytes)
-        detail::fail("numerics.cutoff", std::to_string(spec_.cutoff),
-                     "a cutoff whose state fits in the memory allowed (" + std::to_string(max_bytes / 1048576.0) +
-                             " MB; this one needs " + std::to_string(bytes / 1048576.0) + " MB)");
-      last = run(spec_.cutoff, Weighting::full);
-      last_cutoff = spec_.cutoff;
-      needed = spec_.cutoff;
+        throw InputError("", 0, "numerics.cutoff", std::to_string(numerics.cutoff),
+                         "a cutoff whose state fits in the memory allowed (" + mebibytes(max_bytes) +
+                             "; this one needs " + mebibytes(bytes) + ")");
+      last = run(numerics.cutoff, Weighting::full);
+      last_cutoff = numerics.cutoff;
+      needed = numerics.cutoff;
       if (!(last->error() <= tol)) {
         // Estimate the cutoff the tolerance needs from a second, cheaper run.
-        const int smaller = std::max(1, (3 * spec_.cutoff) / 4);
-        if (smaller < spec_.cutoff) {
+        const int smaller = std::max(1, (3 * numerics.cutoff) / 4);
+        if (smaller < numerics.cutoff) {
           const Run probe = run(smaller, Weighting::full);
-          needed = extrapolate(smaller, probe.error(), spec_.cutoff, last->error(), tol);
+          needed = extrapolate(smaller, probe.error(), numerics.cutoff, last->error(), tol);
         } else {
-          needed = spec_.cutoff + 1;
+          needed = numerics.cutoff + 1;
         }
       }
     } else {
@@ -165,7 +205,7 @@ public:
         cutoff = e.needed_cutoff();
         fits = false;
       }
-      const int limit = std::min(spec_.max_cutoff, largest_fitting_cutoff(engine, max_bytes));
+      const int limit = std::min(numerics.max_cutoff, largest_fitting_cutoff(engine, max_bytes));
       // A heralded state has ledger / P >> the conversion deficit when P is small. A cheap pilot
       // run at half the cutoff (1/11 of the cost) estimates P; the conversion deficit that meets
       // the tolerance on it, tol^2 P / 2, then gives the cutoff directly instead of raising it
@@ -267,13 +307,12 @@ private:
     r.negativity = e.negativity;
     r.log_negativity = e.log_negativity;
     r.fidelity = measures::fidelity(run.state, measures_work_);
-    if (uses_counters({spec_.steps.begin() + static_cast<std::ptrdiff_t>(first_), spec_.steps.end()}) &&
-        any_dark_counts(spec_, first_)) {
+    if (uses_counters(spec_.steps, first_) && any_dark_counts(spec_, first_)) {
       // Only the genuine success probability is needed, and the ledger bounds its error exactly:
       // half the cutoff (1/11 of the cost) usually already has ledger / P_genuine below the
       // tolerance; otherwise the full cutoff is used.
       const Run half = this->run(std::max(4, cutoff / 2), Weighting::genuine);
-      const double genuine = (half.probability > 0.0 && half.ledger <= spec_.tolerance * half.probability)
+      const double genuine = (half.probability > 0.0 && half.ledger <= spec_.numerics.tolerance * half.probability)
                                  ? half.probability
                                  : this->run(cutoff, Weighting::genuine).probability;
       r.false_herald_fraction = 1.0 - genuine / p;  // range-checked below, not clipped
@@ -294,6 +333,17 @@ private:
     }
   }
 
+ public:
+  // The heralding rate of an ok point: trial rate x P.
+  void rate(PointResult& r) const {
+    if (r.status != Status::ok) return;
+    const double trials =
+        steps::trial_rate_hz(spec_.source.bandwidth_hz, steps::counters_used(spec_.steps, spec_.counters));
+    r.heralding_rate_hz = trials * r.success_probability;
+  }
+
+ private:
+
   const PointSpec& spec_;
   gaussian::StandardForm form_;
   std::size_t first_;
@@ -306,21 +356,26 @@ private:
 PointResult evaluate(const PointSpec& spec) {
   check_point(spec);
   // Gaussian prefix: leading link and loss steps act on the covariance matrix (exact), so the
-  // state enters Fock space once, after the last Gaussian step (PHYSICS.md §2.3, pitfall 6).
-  gaussian::StandardForm form = gaussian::tmst(spec.squeezing_r, spec.thermal_photons);
+  // state enters Fock space once, after the last Gaussian step (docs/physics.md §2.3, pitfall 6).
+  gaussian::StandardForm form = source_state(spec.source);
   std::size_t first = 0;
   for (; first < spec.steps.size(); ++first) {
-    const auto& s = spec.steps[first];
-    if (s.kind == StepKind::link) {
-      form = gaussian::apply(gaussian::apply(form, Mode::A, spec.channel_a), Mode::B, spec.channel_b);
-    } else if (s.kind == StepKind::loss) {
-      form = gaussian::apply(form, s.mode, link::Channel{s.transmissivity, s.bath_photons});
-    } else {
-      break;
-    }
+    const StepSpec& s = spec.steps[first];
+    if (!s.type->channels) break;
+    const steps::Channels ch = s.type->channels(s, context_for(spec, s, Weighting::full, nullptr));
+    if (ch.a) form = gaussian::apply(form, Mode::A, *ch.a);
+    if (ch.b) form = gaussian::apply(form, Mode::B, *ch.b);
   }
-  if (spec.engine == fock::Engine::sector) return Evaluator<fock::SectorState>(spec, form, first).evaluate();
-  return Evaluator<fock::DenseState>(spec, form, first).evaluate();
+  if (spec.numerics.engine == fock::Engine::sector) {
+    Evaluator<fock::SectorState> e(spec, form, first);
+    PointResult r = e.evaluate();
+    e.rate(r);
+    return r;
+  }
+  Evaluator<fock::DenseState> e(spec, form, first);
+  PointResult r = e.evaluate();
+  e.rate(r);
+  return r;
 }
 
-}  // namespace heraldry::steps
+}  // namespace heraldry::point

@@ -4,22 +4,20 @@
 //
 // Protocol (all on MPI_COMM_WORLD, C API, threading level "funneled": only the main thread of a
 // rank calls MPI; OpenMP threads and rank 0's local worker thread never do):
-//   worker -> 0  tag_report  long long [flags, n, n x (protocol, flat, status, cutoff, cutoff_needed)]
-//   worker -> 0  tag_values  double    [n x (success_probability, negativity, log_negativity,
-//                                        fidelity, false_herald_fraction, truncation_error,
-//                                        amplifier_cut_fraction, heralding_rate_hz)]
+//   worker -> 0  tag_report  long long [flags, n, n x (protocol, flat)]
+//   worker -> 0  tag_values  double    [n x (every field of point::result_fields(), in order;
+//                                        integers and enumerations are exact in a double)]
 //   worker -> 0  tag_error   char      (only with flag_error) the error's fields, '\0'-separated
 //   0 -> worker  tag_work    long long [n x (protocol, flat)]; empty: stop and return
 // A worker's first report is empty (a request); every report gets exactly one tag_work reply.
 // Waits poll with MPI_Iprobe and short sleeps: OpenMPI's blocking receive spins at 100% CPU,
 // which would take the core of a compute thread on rank 0 or of a rank on a shared node.
-#include "sweep/mpi_run.hpp"
-
 #include <stdexcept>
 
 #include "heraldry/common.hpp"
-#include "heraldry/run.hpp"
+#include "heraldry/ranks.hpp"
 #include "heraldry/scenario.hpp"
+#include "sweep/executor.hpp"
 
 #if HERALDRY_HAVE_MPI
 
@@ -41,22 +39,19 @@
 
 #include "heraldry/sweep.hpp"
 
-namespace heraldry::run {
-
-namespace detail {
+namespace heraldry::sweep {
 
 namespace {
 
 constexpr int tag_report = 1, tag_values = 2, tag_error = 3, tag_work = 4;
 constexpr long long flag_stopping = 1, flag_error = 2;
-constexpr std::size_t ints_per_point = 5, doubles_per_point = 8;
+constexpr std::size_t ints_per_point = 2;
+std::size_t doubles_per_point() { return point::result_fields().size(); }
 
 // A broken message is a programming error (both ends are this file): the run cannot continue
-// consistently on any rank.
+// consistently on any rank. Thrown; the command line ends the whole job.
 [[noreturn]] void protocol_error(const char* what) {
-  std::fprintf(stderr, "heraldry: internal error in the MPI batch protocol: %s\n", what);
-  MPI_Abort(MPI_COMM_WORLD, 70);
-  std::abort();  // not reached: MPI_Abort does not return
+  throw std::logic_error(std::string("heraldry: internal error in the MPI batch protocol: ") + what);
 }
 
 MPI_Status wait_for(int source, int tag) {
@@ -145,14 +140,16 @@ RankError describe(int rank, std::exception_ptr failure) {
   return e;
 }
 
+using Evaluate = std::function<point::PointResult(const Job&)>;
+
 // Evaluates a batch with the OpenMP dispatcher; each job writes its own slot.
-std::exception_ptr evaluate_batch(const std::vector<Job>& batch, int threads,
-                                  const std::function<Outcome(const Job&)>& evaluate, std::vector<Outcome>& out) {
+std::exception_ptr evaluate_batch(const std::vector<Job>& batch, int threads, const Evaluate& evaluate,
+                                  std::vector<Outcome>& out) {
   out.assign(batch.size(), Outcome{});
   std::vector<std::size_t> todo(batch.size());
   for (std::size_t i = 0; i < todo.size(); ++i) todo[i] = i;
   try {
-    sweep::dispatch(todo, threads, [&](std::size_t i) { out[i] = evaluate(batch[i]); }, {}, {});
+    dispatch(todo, threads, [&](std::size_t i) { out[i] = Outcome{batch[i], evaluate(batch[i])}; }, {}, {});
   } catch (...) {
     return std::current_exception();
   }
@@ -163,12 +160,8 @@ void send_report(long long flags, const std::vector<Outcome>& out, const RankErr
   std::vector<long long> ints{flags, static_cast<long long>(out.size())};
   std::vector<double> values;
   for (const Outcome& o : out) {
-    const steps::PointResult& r = o.result;
-    ints.insert(ints.end(), {static_cast<long long>(o.job.first), static_cast<long long>(o.job.second),
-                             static_cast<long long>(r.status), r.cutoff, r.cutoff_needed});
-    values.insert(values.end(), {r.success_probability, r.negativity, r.log_negativity, r.fidelity,
-                                 r.false_herald_fraction, r.truncation_error, r.amplifier_cut_fraction,
-                                 o.heralding_rate_hz});
+    ints.insert(ints.end(), {static_cast<long long>(o.job.first), static_cast<long long>(o.job.second)});
+    for (const point::Field& f : point::result_fields()) values.push_back(f.get(o.result));
   }
   MPI_Send(ints.data(), static_cast<int>(ints.size()), MPI_LONG_LONG, 0, tag_report, MPI_COMM_WORLD);
   MPI_Send(values.data(), static_cast<int>(values.size()), MPI_DOUBLE, 0, tag_values, MPI_COMM_WORLD);
@@ -193,24 +186,15 @@ Report receive_report(int source) {
   if (ints.size() < 2) protocol_error("short report");
   rep.flags = ints[0];
   const auto n = static_cast<std::size_t>(ints[1]);
-  if (ints.size() != 2 + ints_per_point * n || values.size() != doubles_per_point * n)
+  const std::span<const point::Field> fields = point::result_fields();
+  if (ints.size() != 2 + ints_per_point * n || values.size() != doubles_per_point() * n)
     protocol_error("report sizes do not match its point count");
   for (std::size_t k = 0; k < n; ++k) {
     const long long* i = &ints[2 + ints_per_point * k];
-    const double* v = &values[doubles_per_point * k];
+    const double* v = &values[doubles_per_point() * k];
     Outcome o;
     o.job = {static_cast<std::size_t>(i[0]), static_cast<std::size_t>(i[1])};
-    o.result.status = static_cast<Status>(i[2]);
-    o.result.cutoff = static_cast<int>(i[3]);
-    o.result.cutoff_needed = static_cast<int>(i[4]);
-    o.result.success_probability = v[0];
-    o.result.negativity = v[1];
-    o.result.log_negativity = v[2];
-    o.result.fidelity = v[3];
-    o.result.false_herald_fraction = v[4];
-    o.result.truncation_error = v[5];
-    o.result.amplifier_cut_fraction = v[6];
-    o.heralding_rate_hz = v[7];
+    for (std::size_t f = 0; f < fields.size(); ++f) fields[f].set(o.result, v[f]);
     rep.outcomes.push_back(o);
   }
   if (rep.flags & flag_error) rep.error = RankError::decode(source, receive<char>(source, tag_error, MPI_CHAR));
@@ -222,9 +206,6 @@ void send_work(int rank, const std::vector<Job>& batch) {
   for (const Job& j : batch) ints.insert(ints.end(), {static_cast<long long>(j.first), static_cast<long long>(j.second)});
   MPI_Send(ints.data(), static_cast<int>(ints.size()), MPI_LONG_LONG, rank, tag_work, MPI_COMM_WORLD);
 }
-
-// Rank 0's record of which ranks still wait for an answer (see expect_workers).
-std::vector<char> waiting_ranks;
 
 // Guided self-scheduling (Polychronopoulos & Kuck, IEEE Trans. Comput. C-36, 1425 (1987)): each
 // batch is a share of what is left, so batches shrink towards the end and the ranks finish
@@ -240,7 +221,7 @@ std::size_t batch_size(std::size_t remaining, std::size_t workers, int threads) 
 // the main thread talks MPI, stores results and writes checkpoints.
 class LocalWorker {
 public:
-  LocalWorker(int threads, const std::function<Outcome(const Job&)>& evaluate)
+  LocalWorker(int threads, const Evaluate& evaluate)
       : threads_(threads), evaluate_(evaluate), thread_([this] { loop(); }) {}
   ~LocalWorker() {
     {
@@ -292,7 +273,7 @@ private:
   }
 
   int threads_;
-  const std::function<Outcome(const Job&)>& evaluate_;
+  const Evaluate& evaluate_;
   std::mutex m_;
   std::condition_variable cv_;
   std::vector<Job> batch_;
@@ -302,9 +283,6 @@ private:
   std::thread thread_;  // last: starts after the members above exist
 };
 
-}  // namespace
-
-namespace {
 // MPI is usable between MPI_Init and MPI_Finalize (only once per process).
 bool mpi_active() {
   int init = 0, done = 0;
@@ -312,6 +290,35 @@ bool mpi_active() {
   MPI_Finalized(&done);
   return init && !done;
 }
+
+// Rank 0 of K > 1. On construction every other rank is waiting for its first batch; the
+// destructor tells every rank still waiting to stop, so that no rank hangs whatever way the
+// run ends (an error before, during or instead of run()).
+class RankExecutor final : public Executor {
+public:
+  explicit RankExecutor(int threads) : threads_(threads), waiting_(static_cast<std::size_t>(rank_count()), 1) {}
+  ~RankExecutor() override { release(); }
+  int ranks() const override { return static_cast<int>(waiting_.size()); }
+  void run(std::span<const Job> jobs, const ExecutorHooks& hooks) override;
+
+private:
+  void release() noexcept {
+    for (std::size_t r = 1; r < waiting_.size(); ++r) {
+      if (!waiting_[r]) continue;
+      try {
+        receive_report(static_cast<int>(r));  // its request (a worker only reports when asked to work)
+        send_work(static_cast<int>(r), {});
+      } catch (...) {
+        // A broken exchange while leaving: nothing more can be told to that rank.
+      }
+      waiting_[r] = 0;
+    }
+  }
+
+  int threads_;
+  std::vector<char> waiting_;  // ranks that still wait for an answer
+};
+
 }  // namespace
 
 int rank_index() {
@@ -326,20 +333,12 @@ int rank_count() {
   return n;
 }
 
-void expect_workers() { waiting_ranks.assign(static_cast<std::size_t>(rank_count()), 1); }
+std::unique_ptr<Executor> rank_executor(int threads) { return std::make_unique<RankExecutor>(threads); }
 
-void release_workers() noexcept {
-  for (std::size_t r = 1; r < waiting_ranks.size(); ++r) {
-    if (!waiting_ranks[r]) continue;
-    receive_report(static_cast<int>(r));  // its request (a worker only reports when asked to work)
-    send_work(static_cast<int>(r), {});
-    waiting_ranks[r] = 0;
-  }
-}
-
-void coordinate(std::span<const Job> jobs, int threads, const CoordinatorHooks& hooks) {
-  const int ranks = rank_count();
-  const std::size_t workers = static_cast<std::size_t>(ranks);  // ranks 1..K-1 and rank 0's thread
+void RankExecutor::run(std::span<const Job> jobs, const ExecutorHooks& hooks) {
+  const int threads = threads_;
+  std::vector<char>& waiting_ranks = waiting_;
+  const std::size_t workers = waiting_ranks.size();  // ranks 1..K-1 and rank 0's thread
   std::size_t next = 0;
   bool stopping = false;
   std::optional<RankError> error;
@@ -414,9 +413,9 @@ void coordinate(std::span<const Job> jobs, int threads, const CoordinatorHooks& 
   if (error) error->raise();
 }
 
-void serve(int threads, const std::function<Outcome(const Job&)>& evaluate, const std::function<bool()>& stop) {
+void serve(int threads, const Evaluate& evaluate, const std::function<bool()>& stop) {
   const int me = rank_index();
-  try {
+  {
     send_report(0, {}, nullptr);
     for (;;) {
       const auto ints = receive<long long>(0, tag_work, MPI_LONG_LONG);
@@ -435,16 +434,17 @@ void serve(int threads, const std::function<Outcome(const Job&)>& evaluate, cons
         send_report(flags, out, nullptr);
       }
     }
-  } catch (const std::exception& e) {
-    // Outside the evaluation (allocation of a message): rank 0 would wait for this rank forever.
-    std::fprintf(stderr, "heraldry: MPI rank %d cannot go on: %s\n", me, e.what());
-    MPI_Abort(MPI_COMM_WORLD, 70);
   }
+  // An error outside the evaluation (allocation of a message, a broken exchange) leaves this
+  // function as an exception: rank 0 would wait for this rank forever, so the caller must end
+  // the whole job (the command line calls ranks::Session::abort).
 }
 
-}  // namespace detail
+}  // namespace heraldry::sweep
 
-RankSession::RankSession() {
+namespace heraldry::ranks {
+
+Session::Session() {
   int init = 0, done = 0;
   MPI_Initialized(&init);
   MPI_Finalized(&done);
@@ -454,22 +454,29 @@ RankSession::RankSession() {
     MPI_Init_thread(nullptr, nullptr, MPI_THREAD_FUNNELED, &provided);
     started_ = true;
   }
-  ranks_.rank = detail::rank_index();
-  ranks_.size = detail::rank_count();
+  ranks_.rank = sweep::rank_index();
+  ranks_.size = sweep::rank_count();
 }
 
-RankSession::~RankSession() {
+void Session::abort(int code) noexcept {
+  if (ranks_.size > 1) {
+    std::fflush(stderr);
+    MPI_Abort(MPI_COMM_WORLD, code);
+  }
+}
+
+Session::~Session() {
   int done = 0;
   MPI_Finalized(&done);
   if (started_ && !done) MPI_Finalize();
 }
 
 std::optional<scenario::Scenario> shared_scenario(const std::function<scenario::Scenario()>& load) {
-  const int ranks = detail::rank_count();
+  const int ranks = sweep::rank_count();
   if (ranks == 1) return load();
   // [text length, path length]; -1: rank 0 could not load it (and reports why).
   long long sizes[2] = {-1, 0};
-  if (detail::rank_index() == 0) {
+  if (sweep::rank_index() == 0) {
     std::optional<scenario::Scenario> sc;
     try {
       sc = load();
@@ -492,40 +499,38 @@ std::optional<scenario::Scenario> shared_scenario(const std::function<scenario::
   try {
     return scenario::parse(both.substr(0, n), both.substr(n));
   } catch (const std::exception& e) {
-    // Rank 0 parsed this very text: a failure here is a defect, and rank 0 would wait for this rank.
-    std::fprintf(stderr, "heraldry: MPI rank %d cannot parse the scenario rank 0 parsed: %s\n", detail::rank_index(),
-                 e.what());
-    MPI_Abort(MPI_COMM_WORLD, 70);
+    // Rank 0 parsed this very text: a failure here is a defect, and rank 0 would wait for this
+    // rank; the caller ends the whole job.
+    throw std::logic_error("heraldry: MPI rank " + std::to_string(sweep::rank_index()) +
+                           " cannot parse the scenario rank 0 parsed: " + e.what());
   }
-  return std::nullopt;  // not reached
 }
 
-}  // namespace heraldry::run
+}  // namespace heraldry::ranks
 
 #else  // without MPI: one rank, and the distributed paths are never taken
 
-namespace heraldry::run {
-
-namespace detail {
+namespace heraldry::sweep {
 
 int rank_index() { return 0; }
 int rank_count() { return 1; }
-void expect_workers() {}
-void release_workers() noexcept {}
-void coordinate(std::span<const Job>, int, const CoordinatorHooks&) {
-  throw std::logic_error("heraldry: coordinate() needs a build with HERALDRY_WITH_MPI");
+std::unique_ptr<Executor> rank_executor(int) {
+  throw std::logic_error("heraldry: rank_executor() needs a build with HERALDRY_WITH_MPI");
 }
-void serve(int, const std::function<Outcome(const Job&)>&, const std::function<bool()>&) {
+void serve(int, const std::function<point::PointResult(const Job&)>&, const std::function<bool()>&) {
   throw std::logic_error("heraldry: serve() needs a build with HERALDRY_WITH_MPI");
 }
 
-}  // namespace detail
+}  // namespace heraldry::sweep
 
-RankSession::RankSession() = default;
-RankSession::~RankSession() = default;
+namespace heraldry::ranks {
+
+Session::Session() = default;
+Session::~Session() = default;
+void Session::abort(int) noexcept {}
 
 std::optional<scenario::Scenario> shared_scenario(const std::function<scenario::Scenario()>& load) { return load(); }
 
-}  // namespace heraldry::run
+}  // namespace heraldry::ranks
 
 #endif

@@ -1,0 +1,192 @@
+// The verdict: at the target distance, does each protocol beat the bare link, at what rate, and
+// up to which distance? Evaluates the swept settings at the target, keeps the best, refines the
+// break-even distances between grid points.
+#include <algorithm>
+#include <cmath>
+#include <functional>
+#include <sstream>
+
+#include "heraldry/output.hpp"
+#include "heraldry/point.hpp"
+#include "heraldry/scenario.hpp"
+#include "heraldry/sweep.hpp"
+#include "heraldry/verdict.hpp"
+
+namespace heraldry::verdict {
+
+namespace {
+
+bool usable(const point::PointResult& r) { return r.status == Status::ok; }
+
+// A setting that did not reach its budget shows no figures in the trade map.
+point::PointResult shown(const point::PointResult& r) {
+  if (usable(r)) return r;
+  point::PointResult blank;
+  blank.status = r.status;
+  blank.cutoff = r.cutoff;
+  blank.cutoff_needed = r.cutoff_needed;
+  blank.truncation_error = r.truncation_error;
+  blank.amplifier_cut_fraction = r.amplifier_cut_fraction;
+  return blank;
+}
+
+// One line in words: does the protocol pay off at the target, and at what rate?
+std::string summarise(const sweep::ProtocolPlan& pp, const ProtocolVerdict& pv, const Verdict& v) {
+  const point::PointResult& best = pv.at_target;
+  std::ostringstream line;
+  line.precision(3);
+  const double target = v.target_m;
+  if (!usable(best)) {
+    line << "no verdict at " << target << " m: " << to_string(best.status);
+    if (best.status == Status::truncation_budget_missed) line << " (needs cutoff " << best.cutoff_needed << ")";
+    return line.str();
+  }
+  const bool is_bare = pp.axes.size() == 1 && std::abs(best.success_probability - 1.0) < 1e-12;
+  if (is_bare) {
+    line << "no heralding: this is the link itself (E_N " << best.log_negativity << ", F " << best.fidelity << ")";
+    return line.str();
+  }
+  line << (pv.pays_off_log_negativity ? "pays off" : "does not pay off") << " at " << target << " m: E_N "
+       << best.log_negativity << " vs " << v.bare_log_negativity << " bare, F " << best.fidelity << " vs "
+       << v.bare_fidelity << " bare";
+  if (pv.pays_off_log_negativity && !pv.pays_off_fidelity) line << " (entanglement up, teleportation fidelity not)";
+  if (!pv.pays_off_log_negativity && pv.pays_off_fidelity) line << " (fidelity up, entanglement not)";
+  line << "; " << best.heralding_rate_hz << " heralded pairs/s";
+  line.precision(2);
+  line << ", " << 100.0 * best.false_herald_fraction << "% false heralds";
+  line.precision(3);
+  if (v.relay_log_negativity && *v.relay_log_negativity > best.log_negativity)
+    line << "; a midpoint relay would do better (E_N " << *v.relay_log_negativity << ")";
+  return line.str();
+}
+
+}  // namespace
+
+Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, const output::RunData& data, int threads) {
+  Verdict v;
+  const auto& grid = sc.link.distances_m;
+  const point::Source source = sweep::source_of(sc);
+  v.target_m = sc.link.target_m;
+  const point::LinkPoint target = point::link_point(source, sc.link.model, v.target_m);
+  v.bare_log_negativity = target.log_negativity;
+  v.bare_fidelity = target.fidelity;
+  v.relay_log_negativity = target.relay_log_negativity;
+  v.relay_fidelity = target.relay_fidelity;
+  if (grid.size() > 1) {
+    const point::BareCrossings bare = point::bare_crossings(source, sc.link.model, grid);
+    v.survival = bare.survival;
+    v.fidelity_half = bare.fidelity_half;
+  }
+  const std::size_t np = plan.protocols.size();
+  v.protocols.resize(np);
+
+  // 1. Every setting of the swept parameters of every protocol, evaluated at the target
+  //    distance (in parallel); each protocol keeps the setting with the largest E_N.
+  struct TargetJob {
+    std::size_t protocol;
+    std::vector<std::size_t> index;
+    point::PointResult result;
+  };
+  std::vector<TargetJob> target_jobs;
+  for (std::size_t p = 0; p < np; ++p) {
+    const sweep::ProtocolPlan& pp = plan.protocols[p];
+    const std::size_t slice = pp.size() / pp.axes[0].values.size();
+    for (std::size_t s = 0; s < slice; ++s) target_jobs.push_back({p, pp.unflatten(s), {}});
+  }
+  std::vector<std::size_t> todo(target_jobs.size());
+  for (std::size_t j = 0; j < todo.size(); ++j) todo[j] = j;
+  sweep::dispatch(todo, threads,
+                  [&](std::size_t j) {
+                    target_jobs[j].result = point::evaluate(
+                        sweep::resolve(sc, plan, target_jobs[j].protocol, target_jobs[j].index, v.target_m));
+                  },
+                  {}, {});
+  std::vector<std::vector<std::size_t>> best_index(np);
+  std::vector<point::PointResult> best(np);
+  std::vector<bool> have(np, false);
+  for (const TargetJob& job : target_jobs) {
+    const std::size_t p = job.protocol;
+    const point::PointResult& r = job.result;
+    if (!have[p] || (usable(r) && (!usable(best[p]) || r.log_negativity > best[p].log_negativity))) {
+      best[p] = r;
+      best_index[p] = job.index;
+      have[p] = true;
+    }
+  }
+
+  // 2. Crossings along distance with each protocol's best setting held fixed: grid values from
+  //    the run, refined between grid points by fresh evaluations. Three per protocol, in parallel.
+  enum Figure { en_vs_bare = 0, f_vs_bare = 1, f_vs_half = 2 };
+  std::vector<Crossing> crossings(3 * np);
+  if (grid.size() > 1) {
+    const double step = (grid.back() - grid.front()) / static_cast<double>(grid.size() - 1);
+    const double tol = 1e-4 * std::max(step, 1e-12);
+    std::vector<std::size_t> jobs(3 * np);
+    for (std::size_t j = 0; j < jobs.size(); ++j) jobs[j] = j;
+    sweep::dispatch(jobs, threads,
+                    [&](std::size_t j) {
+                      const std::size_t p = j / 3;
+                      const auto figure = static_cast<Figure>(j % 3);
+                      const sweep::ProtocolPlan& pp = plan.protocols[p];
+                      const output::ProtocolTable& table = data.protocols.at(p);
+                      auto margin = [&](const point::PointResult& r, double d, std::size_t di, bool from_grid) {
+                        if (!usable(r)) return -1.0;
+                        switch (figure) {
+                          case en_vs_bare:
+                            return r.log_negativity -
+                                   (from_grid ? data.link.log_negativity[di]
+                                              : gaussian::log_negativity(point::bare_state(source, sc.link.model, d)));
+                          case f_vs_bare:
+                            return r.fidelity - (from_grid ? data.link.fidelity[di]
+                                                           : gaussian::fidelity(point::bare_state(source, sc.link.model, d)));
+                          case f_vs_half: return r.fidelity - 0.5;
+                        }
+                        return -1.0;
+                      };
+                      std::vector<double> values;
+                      for (std::size_t di = 0; di < grid.size(); ++di) {
+                        std::vector<std::size_t> idx = best_index[p];
+                        idx[0] = di;
+                        std::size_t flat = 0;
+                        for (std::size_t a = 0; a < idx.size(); ++a) flat = flat * pp.axes[a].values.size() + idx[a];
+                        values.push_back(table.done[flat] ? margin(table.points[flat], grid[di], di, true) : -1.0);
+                      }
+                      auto fn = [&](double d) {
+                        return margin(point::evaluate(sweep::resolve(sc, plan, p, best_index[p], d)), d, 0, false);
+                      };
+                      crossings[j] = last_downward_crossing(fn, grid, values, tol);
+                    },
+                    {}, {});
+  }
+
+  for (std::size_t p = 0; p < np; ++p) {
+    const sweep::ProtocolPlan& pp = plan.protocols[p];
+    const output::ProtocolTable& table = data.protocols.at(p);
+    ProtocolVerdict& pv = v.protocols[p];
+    pv.name = pp.name;
+    for (std::size_t i = 0; i < table.points.size(); ++i)
+      if (!table.done[i] || !usable(table.points[i])) ++pv.failed_points;
+    const point::PointResult& b = best[p];
+    pv.at_target = b;
+    for (std::size_t a = 1; a < pp.axes.size(); ++a) pv.best.emplace_back(pp.axes[a].name, pp.axes[a].values[best_index[p][a]]);
+    if (sc.output.heralds_wanted && b.heralding_rate_hz > 0.0)
+      pv.seconds_for_heralds = *sc.output.heralds_wanted / b.heralding_rate_hz;
+    pv.pays_off_log_negativity = usable(b) && b.log_negativity > v.bare_log_negativity;
+    pv.pays_off_fidelity = usable(b) && b.fidelity > v.bare_fidelity;
+    if (pp.axes.size() > 1) {
+      for (std::size_t a = 1; a < pp.axes.size(); ++a) {
+        pv.slice_axes.push_back(pp.axes[a].name);
+        pv.slice_shape.push_back(pp.axes[a].values.size());
+      }
+      for (const TargetJob& job : target_jobs)
+        if (job.protocol == p) pv.slice.push_back(shown(job.result));
+    }
+    pv.breakeven_log_negativity = crossings[3 * p + en_vs_bare];
+    pv.breakeven_fidelity = crossings[3 * p + f_vs_bare];
+    pv.fidelity_half = crossings[3 * p + f_vs_half];
+    pv.summary = summarise(pp, pv, v);
+  }
+  return v;
+}
+
+}  // namespace heraldry::verdict

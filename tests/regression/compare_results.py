@@ -1,0 +1,78 @@
+#!/usr/bin/python3
+"""Regression check of heraldry result files: every dataset and attribute of the reference file
+must be in the new file with the same value (numbers to 1e-12, relative to max(1, |value|)).
+The new file may hold more (new figures); provenance attributes (time, version, threads, ranks)
+and the words of `description` attributes are not compared.
+
+Usage: compare_results.py REFERENCE.h5 NEW.h5 [--tolerance T]
+Exit code 0 when the reference is contained, 1 otherwise (differences printed).
+"""
+import sys
+
+import h5py
+import numpy as np
+
+IGNORED = {"created_utc", "ranks", "threads", "tool_version"}
+# Words may improve between versions; what they describe (values, units) may not change.
+WORDS = {"description"}
+
+
+def as_text(v):
+    return v.decode() if isinstance(v, bytes) else v
+
+
+def same(x, y, tol):
+    if isinstance(x, (bytes, str)) or isinstance(y, (bytes, str)):
+        return as_text(x) == as_text(y)
+    x, y = np.asarray(x), np.asarray(y)
+    if x.shape != y.shape:
+        return False
+    if x.dtype.kind in "fiu" and y.dtype.kind in "fiu":
+        x, y = x.astype(float), y.astype(float)
+        return bool(np.all(np.abs(x - y) <= tol * np.maximum(1.0, np.abs(x))))
+    return np.array_equal(x, y)
+
+
+def compare(ref, new, tol):
+    problems = []
+    items = {}
+    ref.visititems(lambda name, obj: items.update({name: obj}))
+    for name, obj in [("/", ref)] + sorted(items.items()):
+        if name != "/" and name not in new:
+            problems.append(f"{name}: missing in the new file")
+            continue
+        other = new if name == "/" else new[name]
+        if isinstance(obj, h5py.Dataset) and not same(obj[()], other[()], tol):
+            problems.append(f"{name}: values differ")
+        for key, value in obj.attrs.items():
+            if key in IGNORED or key in WORDS:
+                continue
+            if key not in other.attrs:
+                problems.append(f"{name}@{key}: missing in the new file")
+            elif not same(value, other.attrs[key], tol):
+                problems.append(f"{name}@{key}: {value!r} != {other.attrs[key]!r}")
+    return problems, len(items)
+
+
+def main():
+    args = sys.argv[1:]
+    tol = 1e-12
+    if "--tolerance" in args:
+        i = args.index("--tolerance")
+        tol = float(args[i + 1])
+        del args[i:i + 2]
+    if len(args) != 2:
+        print(__doc__.strip().splitlines()[-2], file=sys.stderr)
+        return 2
+    with h5py.File(args[0], "r") as a, h5py.File(args[1], "r") as b:
+        problems, n = compare(a, b, tol)
+    for p in problems:
+        print("differs:", p)
+    if problems:
+        return 1
+    print(f"contained: {n} groups and datasets of {args[0]} in {args[1]} (tolerance {tol:g})")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
