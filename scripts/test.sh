@@ -19,7 +19,7 @@ if [[ "${1:-}" == "--sanitize" ]]; then
   cd build-asan
   export ASAN_OPTIONS="${ASAN_OPTIONS:-halt_on_error=1:abort_on_error=0:detect_leaks=1:detect_stack_use_after_return=1:strict_string_checks=1}"
   export UBSAN_OPTIONS="${UBSAN_OPTIONS:-halt_on_error=1:print_stacktrace=1}"
-  exec ctest --output-on-failure --no-tests=error -j "${JOBS:-$(nproc 2>/dev/null || echo 2)}"
+  exec ctest --output-on-failure --no-tests=error -LE regression -j "${JOBS:-$(nproc 2>/dev/null || echo 2)}"
 fi
 with_mpi=1
 for arg in "$@"; do

@@ -16,10 +16,7 @@
 
 namespace heraldry::output {
 
-struct ProtocolTable {
-  std::vector<point::PointResult> points;   // flat index, distance slowest
-  std::vector<std::uint8_t> done;
-};
+using sweep::ProtocolTable;
 
 struct RunData {
   point::LinkTable link;

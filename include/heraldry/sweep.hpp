@@ -4,6 +4,7 @@
 #pragma once
 
 #include <cstddef>
+#include <cstdint>
 #include <functional>
 #include <span>
 #include <string>
@@ -38,6 +39,13 @@ struct ProtocolPlan {
 struct Plan {
   std::vector<ProtocolPlan> protocols;
   std::size_t total_points() const;
+};
+
+/// The results of one protocol's grid: one point per flat index (distance slowest) and whether
+/// it has been computed.
+struct ProtocolTable {
+  std::vector<point::PointResult> points;
+  std::vector<std::uint8_t> done;
 };
 
 Plan make_plan(const scenario::Scenario& sc);

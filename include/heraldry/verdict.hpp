@@ -7,19 +7,13 @@
 #include <utility>
 #include <vector>
 
+#include <span>
+
 #include "heraldry/common.hpp"
 #include "heraldry/crossing.hpp"
 #include "heraldry/point.hpp"
-
-namespace heraldry::scenario {
-struct Scenario;
-}
-namespace heraldry::sweep {
-struct Plan;
-}
-namespace heraldry::output {
-struct RunData;
-}
+#include "heraldry/scenario.hpp"
+#include "heraldry/sweep.hpp"
 
 namespace heraldry::verdict {
 
@@ -59,9 +53,11 @@ struct Verdict {
   std::vector<ProtocolVerdict> protocols;
 };
 
-/// The verdict of a complete run: evaluates every swept setting at the target distance, keeps
+/// The verdict of a complete run from its grid results (`tables`, one per protocol of `plan`)
+/// and the bare link on the grid: evaluates every swept setting at the target distance, keeps
 /// the best E_N, and refines the crossings between grid points (to 1e-4 of the grid step), in
-/// parallel on `threads` threads (src/sweep/verdict.cpp).
-Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, const output::RunData& data, int threads = 1);
+/// parallel on `threads` threads (src/verdict/verdict.cpp).
+Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span<const sweep::ProtocolTable> tables,
+                const point::LinkTable& link, int threads = 1);
 
 }  // namespace heraldry::verdict

@@ -6,7 +6,6 @@
 #include <functional>
 #include <sstream>
 
-#include "heraldry/output.hpp"
 #include "heraldry/point.hpp"
 #include "heraldry/scenario.hpp"
 #include "heraldry/sweep.hpp"
@@ -62,7 +61,8 @@ std::string summarise(const sweep::ProtocolPlan& pp, const ProtocolVerdict& pv, 
 
 }  // namespace
 
-Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, const output::RunData& data, int threads) {
+Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span<const sweep::ProtocolTable> tables,
+                const point::LinkTable& link, int threads) {
   Verdict v;
   const auto& grid = sc.link.distances_m;
   const point::Source source = sweep::source_of(sc);
@@ -128,16 +128,16 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, const out
                       const std::size_t p = j / 3;
                       const auto figure = static_cast<Figure>(j % 3);
                       const sweep::ProtocolPlan& pp = plan.protocols[p];
-                      const output::ProtocolTable& table = data.protocols.at(p);
+                      const sweep::ProtocolTable& table = tables[p];
                       auto margin = [&](const point::PointResult& r, double d, std::size_t di, bool from_grid) {
                         if (!usable(r)) return -1.0;
                         switch (figure) {
                           case en_vs_bare:
                             return r.log_negativity -
-                                   (from_grid ? data.link.log_negativity[di]
+                                   (from_grid ? link.log_negativity[di]
                                               : gaussian::log_negativity(point::bare_state(source, sc.link.model, d)));
                           case f_vs_bare:
-                            return r.fidelity - (from_grid ? data.link.fidelity[di]
+                            return r.fidelity - (from_grid ? link.fidelity[di]
                                                            : gaussian::fidelity(point::bare_state(source, sc.link.model, d)));
                           case f_vs_half: return r.fidelity - 0.5;
                         }
@@ -161,7 +161,7 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, const out
 
   for (std::size_t p = 0; p < np; ++p) {
     const sweep::ProtocolPlan& pp = plan.protocols[p];
-    const output::ProtocolTable& table = data.protocols.at(p);
+    const sweep::ProtocolTable& table = tables[p];
     ProtocolVerdict& pv = v.protocols[p];
     pv.name = pp.name;
     for (std::size_t i = 0; i < table.points.size(); ++i)
