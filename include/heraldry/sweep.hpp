@@ -6,6 +6,7 @@
 #include <cstddef>
 #include <cstdint>
 #include <functional>
+#include <optional>
 #include <span>
 #include <string>
 #include <vector>
@@ -58,6 +59,24 @@ point::Numerics numerics_of(const scenario::Scenario& sc);
 /// distance (used to refine crossings between grid points).
 point::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
                          std::span<const std::size_t> index, double distance_m = -1.0);
+
+/// Applies one pin "PROTOCOL:AXIS=VALUE" to the plan (that swept axis keeps only the value).
+/// InputError on the key "--set" naming what was expected (the protocol's swept axes).
+void pin(Plan& plan, std::string_view setting);
+
+/// Every protocol of the scenario at one distance (default: target_m), each swept parameter at
+/// its first value unless pinned; with the bare link there.
+struct ProbeRow {
+  std::string name;
+  point::PointResult result;
+};
+struct Probe {
+  double distance_m = 0.0;
+  point::LinkPoint link;
+  std::vector<ProbeRow> protocols;
+};
+Probe probe(const scenario::Scenario& sc, std::optional<double> at_m = std::nullopt,
+            std::span<const std::string> pins = {});
 
 /// Number of threads the dispatcher uses: `requested` if > 0, else OMP_NUM_THREADS / all cores.
 int thread_count(int requested);
