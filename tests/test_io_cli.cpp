@@ -1,6 +1,7 @@
 // The command line as a user runs it: exit codes, the link table, probe's JSON.
 #include <doctest/doctest.h>
 
+#include "heraldry/scenario.hpp"
 #include "tool_runner.hpp"
 
 #include <H5Cpp.h>
@@ -103,7 +104,7 @@ TEST_CASE("the result file holds the figures that probe prints at the same dista
     const std::size_t at = probe.output.find(std::string("\"name\": \"") + name + "\"");
     REQUIRE(at != std::string::npos);
     for (const char* key : {"success_probability", "log_negativity", "negativity", "fidelity", "false_herald_fraction"}) {
-      H5::DataSet ds = f.openDataSet(std::string("/protocols/") + name + "/" + key);
+      H5::DataSet ds = f.openDataSet("/protocols/" + heraldry::scenario::file_safe_name(name) + "/" + key);
       std::vector<double> v(3);
       ds.read(v.data(), H5::PredType::NATIVE_DOUBLE);
       CAPTURE(name);

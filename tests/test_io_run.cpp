@@ -3,6 +3,7 @@
 #include <doctest/doctest.h>
 
 #include <H5Cpp.h>
+#include <hdf5_hl.h>
 #include <unistd.h>
 
 #include <boost/math/tools/roots.hpp>
@@ -107,7 +108,7 @@ TEST_CASE("a run writes every dataset of the layout with units, and its values e
     CHECK_FALSE(read_attr(ds, "description").empty());
   }
   for (const char* name : protocol_datasets) {
-    H5::DataSet ds = f.openDataSet(std::string("/protocols/subtract both/") + name);
+    H5::DataSet ds = f.openDataSet(std::string("/protocols/subtract_both/") + name);
     CHECK_FALSE(read_attr(ds, "units").empty());
     hsize_t dims[2];
     REQUIRE(ds.getSpace().getSimpleExtentNdims() == 2);
@@ -115,12 +116,12 @@ TEST_CASE("a run writes every dataset of the layout with units, and its values e
     CHECK(dims[0] == 6);
     CHECK(dims[1] == 3);
   }
-  CHECK(read_doubles(f, "/protocols/subtract both/axes/step3.transmissivity") == std::vector<double>{0.85, 0.9, 0.95});
+  CHECK(read_doubles(f, "/protocols/subtract_both/axes/step3.transmissivity") == std::vector<double>{0.85, 0.9, 0.95});
 
   // The values are those of the physics kernel at the same point (what `probe` prints).
   const sweep::Plan plan = sweep::make_plan(sc);
-  const auto en = read_doubles(f, "/protocols/subtract both/log_negativity");
-  const auto P = read_doubles(f, "/protocols/subtract both/success_probability");
+  const auto en = read_doubles(f, "/protocols/subtract_both/log_negativity");
+  const auto P = read_doubles(f, "/protocols/subtract_both/success_probability");
   for (std::size_t flat : {0u, 7u, 17u}) {
     const auto idx = plan.protocols[1].unflatten(flat);
     const point::PointResult r = point::evaluate(sweep::resolve(sc, plan, 1, idx));
@@ -132,8 +133,29 @@ TEST_CASE("a run writes every dataset of the layout with units, and its values e
   const auto gauss_en = read_doubles(f, "/gaussian/log_negativity");
   for (std::size_t i = 0; i < bare_en.size(); ++i) CHECK(bare_en[i] == doctest::Approx(gauss_en[i]).epsilon(1e-5));
   // The verdict group is there with its summary lines.
-  H5::Group v = f.openGroup("/verdict/subtract both");
+  H5::Group v = f.openGroup("/verdict/subtract_both");
   CHECK_FALSE(read_attr(v, "summary").empty());
+  CHECK(read_attr(v, "name") == "subtract both");
+  // Labelled axes: every protocol dataset carries its grid's axes as HDF5 dimension scales
+  // (HDF5 High-Level DS API), in the order of the group's `dims` attribute.
+  const H5::Group g = f.openGroup("/protocols/subtract_both");
+  CHECK(read_attr(g, "name") == "subtract both");
+  CHECK(read_attr(g, "dims") == "distance_m,step3.transmissivity");
+  for (const char* name : protocol_datasets) {
+    CAPTURE(name);
+    const H5::DataSet ds = g.openDataSet(name);
+    char label[64] = {0};
+    REQUIRE(H5DSget_label(ds.getId(), 0, label, sizeof label) > 0);
+    CHECK(std::string(label) == "distance_m");
+    REQUIRE(H5DSget_label(ds.getId(), 1, label, sizeof label) > 0);
+    CHECK(std::string(label) == "step3.transmissivity");
+    const H5::DataSet axis = g.openDataSet("axes/step3.transmissivity");
+    CHECK(H5DSis_attached(ds.getId(), axis.getId(), 1) > 0);
+  }
+  // The resolved settings and the status codes are readable without the scenario text.
+  CHECK(read_attr(f.openGroup("/settings/counters/det"), "kind") == "threshold");
+  CHECK(read_attr(f.openGroup("/protocols/subtract_both/steps/3_tap"), "counter") == "det");
+  CHECK(read_attr(f.openGroup("/"), "status_codes").find("1 truncation budget missed") != std::string::npos);
   fs::remove_all(dir);
 }
 
@@ -166,7 +188,7 @@ TEST_CASE("a run interrupted midway resumes without recomputing and ends identic
   H5::H5File a(full.output, H5F_ACC_RDONLY), b(part.output, H5F_ACC_RDONLY);
   for (const char* proto : {"bare", "subtract both"})
     for (const char* name : protocol_datasets) {
-      const std::string path = std::string("/protocols/") + proto + "/" + name;
+      const std::string path = "/protocols/" + scenario::file_safe_name(proto) + "/" + name;
       CAPTURE(path);
       CHECK(read_doubles(a, path) == read_doubles(b, path));
     }
@@ -215,7 +237,7 @@ TEST_CASE("one and two threads give identical datasets") {
   run::execute(sc, two);
   H5::H5File a(one.output, H5F_ACC_RDONLY), b(two.output, H5F_ACC_RDONLY);
   for (const char* name : protocol_datasets) {
-    const std::string path = std::string("/protocols/subtract both/") + name;
+    const std::string path = std::string("/protocols/subtract_both/") + name;
     CHECK(read_doubles(a, path) == read_doubles(b, path));
   }
   fs::remove_all(dir);

@@ -104,6 +104,12 @@ struct Scenario {
   const Counter* find_counter(std::string_view name) const;
 };
 
+/// A name as it appears in file names and HDF5 group names: letters, digits, '-', '_' and '.'
+/// kept, everything else ('/', spaces, commas, ...) replaced by '_', a leading '.' by '_' (so
+/// never "." or ".."), never empty. Protocol and counter names must differ in this form (parse
+/// refuses two that collide).
+std::string file_safe_name(std::string_view name);
+
 /// Parses and validates a scenario (the schema of protocols/demo.toml). Throws InputError naming
 /// file, line, key, value and what was expected (for an unknown key, the closest known one):
 /// - key: the dotted path, with 0-based indices for arrays ("protocol[1].steps[2].transmissivity",

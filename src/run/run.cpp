@@ -12,6 +12,7 @@
 
 #include "heraldry/fock.hpp"
 #include "heraldry/run.hpp"
+#include "io/safe_file.hpp"
 #include "sweep/executor.hpp"
 
 namespace heraldry::run {
@@ -122,6 +123,8 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
   summary.threads = threads;
   summary.file = options.output.empty() ? sc.output.file : options.output;
   const std::string partial = summary.file + ".partial";
+  // One run per output file at a time (released by the kernel if this process dies).
+  const output::detail::OutputLock lock(summary.file);
   std::error_code ec;
   const bool have_partial = fs::exists(partial, ec);
   if (!have_partial && fs::exists(summary.file, ec) && !options.force)

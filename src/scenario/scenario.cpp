@@ -23,6 +23,18 @@ using detail::Document;
 using detail::Table;
 
 
+std::string file_safe_name(std::string_view name) {
+  std::string g(name);
+  for (char& ch : g) {
+    const bool keep = (ch >= 'a' && ch <= 'z') || (ch >= 'A' && ch <= 'Z') || (ch >= '0' && ch <= '9') || ch == '-' ||
+                      ch == '_' || ch == '.';
+    if (!keep) ch = '_';
+  }
+  if (g.empty()) g = "_";
+  if (g.front() == '.') g.front() = '_';
+  return g;
+}
+
 const Param& Step::param(std::string_view key) const {
   const int i = type->param_index(key);
   if (i < 0 || static_cast<std::size_t>(i) >= params.size())
@@ -221,6 +233,11 @@ std::vector<Counter> read_counters(const Table& root) {
     } else {
       k.dark_per_gate = c.param("dark_per_gate", non_negative).value_or(Param{{0.0}, std::nullopt});
     }
+    for (const Counter& other : out)
+      if (file_safe_name(other.name) == file_safe_name(k.name))
+        root.doc().fail_at(*node, t->key(name), "a counter name that differs from the others in file names",
+                           "it and counters." + other.name + " both become '" + file_safe_name(k.name) +
+                               "' in the result file");
     out.push_back(std::move(k));
   }
   return out;
@@ -404,9 +421,14 @@ std::vector<Protocol> read_protocols(const Table& root, const std::vector<Counte
     const toml::node& e = *a->get(i);
     const Table p(root.doc(), *e.as_table(), "protocol[" + std::to_string(i) + "]", Document::line(e));
     Protocol pr = read_protocol(p, counters);
-    for (std::size_t j = 0; j < out.size(); ++j)
+    for (std::size_t j = 0; j < out.size(); ++j) {
       if (out[j].name == pr.name)
         p.fail("name", "a protocol name used once", "protocol[" + std::to_string(j) + "] has it already");
+      if (file_safe_name(out[j].name) == file_safe_name(pr.name))
+        p.fail("name", "a protocol name that differs from the others in file names",
+               "it and protocol[" + std::to_string(j) + "] (\"" + out[j].name + "\") both become '" +
+                   file_safe_name(pr.name) + "' in the result file and the plots");
+    }
     out.push_back(std::move(pr));
   }
   return out;

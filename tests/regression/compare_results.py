@@ -33,15 +33,38 @@ def same(x, y, tol):
     return np.array_equal(x, y)
 
 
+def group_map(ref, new):
+    """Protocol groups matched by their `name` attribute (group names may change their form)."""
+    mapping = {}
+    for top in ("protocols", "verdict"):
+        if top not in ref or top not in new:
+            continue
+        by_name = {as_text(g.attrs["name"]): key for key, g in new[top].items()
+                   if isinstance(g, h5py.Group) and "name" in g.attrs}
+        for key, g in ref[top].items():
+            if isinstance(g, h5py.Group) and "name" in g.attrs and as_text(g.attrs["name"]) in by_name:
+                mapping[f"{top}/{key}"] = f"{top}/{by_name[as_text(g.attrs['name'])]}"
+    return mapping
+
+
+def translate(name, mapping):
+    for old, new in mapping.items():
+        if name == old or name.startswith(old + "/"):
+            return new + name[len(old):]
+    return name
+
+
 def compare(ref, new, tol):
     problems = []
     items = {}
     ref.visititems(lambda name, obj: items.update({name: obj}))
+    mapping = group_map(ref, new)
     for name, obj in [("/", ref)] + sorted(items.items()):
-        if name != "/" and name not in new:
+        target = translate(name, mapping)
+        if name != "/" and target not in new:
             problems.append(f"{name}: missing in the new file")
             continue
-        other = new if name == "/" else new[name]
+        other = new if name == "/" else new[target]
         if isinstance(obj, h5py.Dataset) and not same(obj[()], other[()], tol):
             problems.append(f"{name}: values differ")
         for key, value in obj.attrs.items():
