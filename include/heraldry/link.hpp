@@ -127,16 +127,18 @@ double lost_fraction_from_db(double loss_db);
 /// 20 dB -> 0.01, VSWR ~1.22).
 double reflected_fraction_from_return_loss_db(double return_loss_db);
 
-/// Typical magnitudes of the losses an ideal antenna leaves out, for a caution line. Each one
-/// alone, coupled to a 300 K room, adds more than the ~8e-4 photons x 1250 that one-way
-/// entanglement tolerates.
-///   - spillover: the spillover efficiency of a focus-fed dish at the usual -10 to -12 dB edge
-///     taper is 85-95 % (vendor application notes, e.g. rfessentials.com "aperture efficiency";
-///     a worked 3 m dish at 10 dB edge taper spills 9 %): a loss of 5-15 %, "a few percent" for
-///     a well-designed feed;
+/// Typical magnitudes of the losses an ideal antenna leaves out, for a caution line. The
+/// spillover and the ohmic loss couple to the room: at these magnitudes either one alone exceeds
+/// the ~1/(n + 1) ~ 8e-4 of loss to a 300 K bath at 5 GHz that one-way entanglement tolerates.
+///   - spillover: common practice; vendor application notes quote spillover efficiencies of
+///     85-95 % for focus-fed dishes at the usual -10 to -12 dB edge taper, i.e. a loss of
+///     5-15 %, "a few percent" for a good feed;
 ///   - ohmic: ~0.1 dB for feed, reflector and radome at room temperature (from memory);
 ///   - mismatch: 20 dB return loss (VSWR 1.22, 1 % reflected) is a common feed specification
 ///     (from memory); vendor notes quote 0.05-0.2 dB of mismatch loss for a feed.
+/// The factorisation of an aperture antenna's efficiency into beam coupling, transmission
+/// spillover and reception spillover, which the stages follow, is that of Nagai, Imada &
+/// Okumura, arXiv:2003.05544 (2020).
 struct TypicalAntennaLosses {
   double spillover_loss = 0.05;
   double ohmic_loss_db = 0.1;

@@ -3,6 +3,7 @@
 #include <cmath>
 #include <limits>
 #include <numbers>
+#include <sstream>
 #include <string>
 
 #include "heraldry/common.hpp"
@@ -107,12 +108,15 @@ bool uses_ideal_antennas(const LinkModel& m) {
 
 std::string ideal_antenna_caution() {
   const TypicalAntennaLosses t;
-  std::string s = "antennas are ideal (Goubau's optimally illuminated apertures, no spillover, ";
-  s += "ohmic or mismatch loss): a best case. Real ones spill ";
-  s += std::to_string(static_cast<int>(t.spillover_loss * 100.0 + 0.5));
-  s += " % or so into the room, lose ~0.1 dB ohmically and reflect ~1 % (20 dB return loss); ";
-  s += "each alone, at room temperature, breaks one-way entanglement (it tolerates ~8e-4)";
-  return s;
+  std::ostringstream s;
+  s << "antennas are ideal (Goubau's optimally illuminated apertures; no spillover, ohmic or "
+       "mismatch loss): a best case. Real ones spill ~"
+    << t.spillover_loss * 100.0 << " % of the feed pattern into the room and lose ~"
+    << t.ohmic_loss_db << " dB ohmically, either alone more than one-way entanglement tolerates "
+    << "against a 300 K bath (~8e-4), and reflect ~"
+    << reflected_fraction_from_return_loss_db(t.return_loss_db) * 100.0 << " % at the feed ("
+    << t.return_loss_db << " dB return loss)";
+  return s.str();
 }
 
 namespace {
