@@ -324,7 +324,7 @@ TEST_CASE("An antenna at one end only is an input error naming the end without o
   CHECK(antenna_pair(m).has_value());
 }
 
-TEST_CASE("Antenna losses outside [0, 1) and negative temperatures are input errors naming the key") {
+TEST_CASE("Antenna losses outside 0 <= loss < 1 and negative temperatures are input errors naming the key") {
   struct Case {
     void (*set)(Antenna&);
     const char* key;
