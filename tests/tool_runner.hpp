@@ -16,8 +16,9 @@ struct Outcome {
   std::string output;  // stdout and stderr together
 };
 
-inline Outcome run_tool(const std::string& args) {
-  const std::string cmd = std::string("\"") + HERALDRY_BINARY + "\" " + args + " 2>&1";
+/// `env` is prepended to the command line (e.g. "NAME=value "): variables for this run only.
+inline Outcome run_tool_env(const std::string& env, const std::string& args) {
+  const std::string cmd = env + "\"" + HERALDRY_BINARY + "\" " + args + " 2>&1";
   Outcome o;
   FILE* pipe = ::popen(cmd.c_str(), "r");
   REQUIRE(pipe != nullptr);
@@ -28,5 +29,7 @@ inline Outcome run_tool(const std::string& args) {
   o.code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
   return o;
 }
+
+inline Outcome run_tool(const std::string& args) { return run_tool_env("", args); }
 
 }  // namespace heraldry::testing

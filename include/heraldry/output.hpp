@@ -6,6 +6,7 @@
 
 #include <cstdint>
 #include <optional>
+#include <stdexcept>
 #include <string>
 #include <vector>
 
@@ -24,6 +25,13 @@ struct RunData {
   std::optional<verdict::Verdict> verdict;
 };
 
+/// A result or checkpoint that could not be written (disk full, no permission, a folder that
+/// vanished): the command line exits with code 4; the file on disk is the previous one, intact.
+class WriteError : public std::runtime_error {
+public:
+  using std::runtime_error::runtime_error;
+};
+
 struct Provenance {
   std::string version;
   int threads = 1;
@@ -38,8 +46,10 @@ std::string scenario_hash(const std::string& text);
 /// Empty tables of the right sizes, every point not done.
 RunData empty_run(const sweep::Plan& plan);
 
-/// Writes `path` atomically (path + ".tmp", then rename). Throws std::runtime_error with the
-/// path and the reason when the folder is missing, not writable, or the disk is full.
+/// Writes `path` atomically: the file is built in memory, written to a fresh temporary name in
+/// the same folder (created exclusively, never through a symlink), flushed to disk and renamed
+/// over `path`. Throws WriteError with the path and the reason when the folder is missing, not
+/// writable, or the disk is full; `path` is then left as it was.
 void write_file(const std::string& path, const scenario::Scenario& sc, const sweep::Plan& plan,
                 const RunData& data, const Provenance& prov, bool complete);
 

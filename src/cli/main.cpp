@@ -8,6 +8,7 @@
 
 #include "cli/commands.hpp"
 #include "heraldry/common.hpp"
+#include "heraldry/output.hpp"
 
 int main(int argc, char** argv) {
   using namespace heraldry;
@@ -70,6 +71,9 @@ int main(int argc, char** argv) {
   } catch (const InputError& e) {
     std::fprintf(stderr, "heraldry: error: %s\n", e.what());
     return 2;
+  } catch (const output::WriteError& e) {
+    std::fprintf(stderr, "heraldry: error: %s\n  (the file on disk is the previous one, intact; free space or choose another folder, then run the same command again)\n", e.what());
+    return 4;
   } catch (const std::exception& e) {
     std::fprintf(stderr, "heraldry: error: %s\n", e.what());
     return 1;

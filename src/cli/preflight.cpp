@@ -6,6 +6,7 @@
 #include <string>
 
 #include "cli/commands.hpp"
+#include "io/safe_file.hpp"
 #include "heraldry/fock.hpp"
 #include "heraldry/point.hpp"
 #include "heraldry/sweep.hpp"
@@ -15,15 +16,21 @@ namespace heraldry::cli {
 void preflight_output(const scenario::Scenario& sc, const std::string& file) {
   namespace fs = std::filesystem;
   const fs::path target(file);
-  if (!target.has_parent_path()) return;
-  const fs::path folder = target.parent_path();
+  const std::string value = "\"" + file + "\"";
   std::error_code ec;
+  if (fs::is_directory(target, ec))
+    throw InputError(sc.path, 0, "output.file", value, "a file name, not a folder", "give a file name inside it");
+  const fs::path folder = target.has_parent_path() ? target.parent_path() : fs::path(".");
   fs::create_directories(folder, ec);
   if (!fs::is_directory(folder)) {
     // A path component that is a file, a missing drive, no permission: refused before any work.
-    throw InputError(sc.path, 0, "output.file", "\"" + file + "\"", "a file in a folder that exists or can be created",
+    throw InputError(sc.path, 0, "output.file", value, "a file in a folder that exists or can be created",
                      "cannot create folder " + folder.string() + (ec ? ": " + ec.message() : std::string()));
   }
+  std::string why;
+  if (!output::detail::folder_writable(folder.string(), &why))
+    throw InputError(sc.path, 0, "output.file", value, "a file in a folder this run can write",
+                     "cannot create a file in " + folder.string() + ": " + why);
 }
 
 void preflight_memory(const scenario::Scenario& sc) {

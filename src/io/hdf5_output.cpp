@@ -429,12 +429,12 @@ void write_file(const std::string& path, const scenario::Scenario& sc, const swe
   const fs::path folder = target.has_parent_path() ? target.parent_path() : fs::path(".");
   std::error_code ec;
   if (!fs::is_directory(folder, ec))
-    throw std::runtime_error("cannot write " + path + ": folder " + folder.string() + " does not exist");
+    throw WriteError("cannot write " + path + ": folder " + folder.string() + " does not exist");
   std::string bytes;
   try {
     bytes = build_image(sc, plan, data, prov, complete);
   } catch (const H5::Exception& e) {
-    throw std::runtime_error("cannot write " + path + ": " + e.getDetailMsg());
+    throw WriteError("cannot write " + path + ": " + e.getDetailMsg());
   }
   detail::write_atomically(path, bytes);
 }

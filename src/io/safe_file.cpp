@@ -6,6 +6,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <atomic>
 #include <cerrno>
 #include <chrono>
@@ -16,6 +17,7 @@
 #include <stdexcept>
 
 #include "heraldry/common.hpp"
+#include "heraldry/output.hpp"
 
 namespace heraldry::output::detail {
 
@@ -24,15 +26,19 @@ namespace {
 namespace fs = std::filesystem;
 
 std::atomic<long long> write_calls{0};
+std::atomic<long long> failing_call{-1};  // -1: not read from the environment yet; 0: none
 
-// write(2) with the test hook (HERALDRY_TEST_FAIL_WRITE=N: the N-th call fails with ENOSPC).
+// write(2) with the test hook: the failing call fails with ENOSPC.
 ssize_t checked_write(int fd, const char* data, std::size_t n) {
+  if (failing_call.load() < 0) {
+    const char* env = std::getenv("HERALDRY_TEST_FAIL_WRITE");
+    long long expected = -1;
+    failing_call.compare_exchange_strong(expected, env ? std::max(0LL, std::atoll(env)) : 0LL);
+  }
   const long long call = ++write_calls;
-  if (const char* fail = std::getenv("HERALDRY_TEST_FAIL_WRITE")) {
-    if (std::atoll(fail) == call) {
-      errno = ENOSPC;
-      return -1;
-    }
+  if (call == failing_call.load()) {
+    errno = ENOSPC;
+    return -1;
   }
   return ::write(fd, data, n);
 }
@@ -49,7 +55,7 @@ std::string unique_suffix() {
 }
 
 [[noreturn]] void fail(const std::string& path, const std::string& what, int err) {
-  throw std::runtime_error("cannot write " + path + ": " + what + ": " + std::strerror(err));
+  throw WriteError("cannot write " + path + ": " + what + ": " + std::strerror(err));
 }
 
 fs::path folder_of(const std::string& path) {
@@ -58,6 +64,8 @@ fs::path folder_of(const std::string& path) {
 }
 
 }  // namespace
+
+void fail_write_after(long long n) { failing_call.store(n > 0 ? write_calls.load() + n : 0); }
 
 void write_atomically(const std::string& path, std::string_view bytes) {
   const std::string tmp = path + ".tmp-" + unique_suffix();

@@ -15,8 +15,11 @@ namespace heraldry::output::detail {
 /// close(2) and rename(2) is checked. Throws std::runtime_error naming the path and the reason
 /// (e.g. "No space left on device"); the temporary file is removed and `path` is left as it was.
 /// Test hook: with HERALDRY_TEST_FAIL_WRITE=N in the environment, the N-th write(2) call of the
-/// process (1-based) fails with ENOSPC.
+/// process (1-based) fails with ENOSPC; fail_write_after(n) does the same from a test.
 void write_atomically(const std::string& path, std::string_view bytes);
+
+/// Test hook: the n-th write(2) call from now fails with ENOSPC (n <= 0: no failure).
+void fail_write_after(long long n);
 
 /// An exclusive lock on an output file for the lifetime of the object: `path` + ".lock", held
 /// with flock(2) (released by the kernel if the process dies, so a killed run never leaves a

@@ -127,7 +127,8 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
   const output::detail::OutputLock lock(summary.file);
   std::error_code ec;
   const bool have_partial = fs::exists(partial, ec);
-  if (!have_partial && fs::exists(summary.file, ec) && !options.force)
+  // A complete result is replaced only with --force, whatever checkpoint lies beside it.
+  if (fs::exists(summary.file, ec) && !options.force)
     throw InputError(sc.path, 0, "output.file", "\"" + summary.file + "\"",
                      "a result file that does not exist yet", "it exists; pass --force to overwrite it");
   if (fs::path(summary.file).has_parent_path()) fs::create_directories(fs::path(summary.file).parent_path(), ec);
