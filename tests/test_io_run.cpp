@@ -116,7 +116,7 @@ TEST_CASE("a run writes every dataset of the layout with units, and its values e
     CHECK(dims[0] == 6);
     CHECK(dims[1] == 3);
   }
-  CHECK(read_doubles(f, "/protocols/subtract_both/axes/step3.transmissivity") == std::vector<double>{0.85, 0.9, 0.95});
+  CHECK(read_doubles(f, "/protocols/subtract_both/axes/tap_b.transmissivity") == std::vector<double>{0.85, 0.9, 0.95});
 
   // The values are those of the physics kernel at the same point (what `probe` prints).
   const sweep::Plan plan = sweep::make_plan(sc);
@@ -140,7 +140,7 @@ TEST_CASE("a run writes every dataset of the layout with units, and its values e
   // (HDF5 High-Level DS API), in the order of the group's `dims` attribute.
   const H5::Group g = f.openGroup("/protocols/subtract_both");
   CHECK(read_attr(g, "name") == "subtract both");
-  CHECK(read_attr(g, "dims") == "distance_m,step3.transmissivity");
+  CHECK(read_attr(g, "dims") == "distance_m,tap_b.transmissivity");
   for (const char* name : protocol_datasets) {
     CAPTURE(name);
     const H5::DataSet ds = g.openDataSet(name);
@@ -148,8 +148,8 @@ TEST_CASE("a run writes every dataset of the layout with units, and its values e
     REQUIRE(H5DSget_label(ds.getId(), 0, label, sizeof label) > 0);
     CHECK(std::string(label) == "distance_m");
     REQUIRE(H5DSget_label(ds.getId(), 1, label, sizeof label) > 0);
-    CHECK(std::string(label) == "step3.transmissivity");
-    const H5::DataSet axis = g.openDataSet("axes/step3.transmissivity");
+    CHECK(std::string(label) == "tap_b.transmissivity");
+    const H5::DataSet axis = g.openDataSet("axes/tap_b.transmissivity");
     CHECK(H5DSis_attached(ds.getId(), axis.getId(), 1) > 0);
   }
   // The resolved settings and the status codes are readable without the scenario text.

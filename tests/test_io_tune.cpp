@@ -93,7 +93,7 @@ TEST_CASE("a tap tuned for rate matches the best of a 60-point brute-force grid"
   const tune::Result r = tune::run(sc, o);
   REQUIRE(r.feasible);
   REQUIRE(r.knobs.size() == 1);
-  CHECK(r.knobs[0].name == "step3.transmissivity");
+  CHECK(r.knobs[0].name == "tap_b.transmissivity");
 
   // Independent computation: every point of a dense grid, the best one kept (a different
   // algorithm from the scan + Brent search under test).
@@ -130,7 +130,7 @@ TEST_CASE("a tap and the squeezing tuned together match a brute-force grid, and 
   REQUIRE(r.feasible);
   REQUIRE(r.knobs.size() == 2);
   CHECK(r.knobs[0].name == "source.squeezing_db");
-  CHECK(r.knobs[1].name == "step3.transmissivity");
+  CHECK(r.knobs[1].name == "tap_b.transmissivity");
 
   // Independent computation: a 9 x 25 grid evaluated point by point.
   constexpr int ns = 9, nt = 25;
@@ -210,7 +210,7 @@ TEST_CASE("tune refuses an unknown protocol, one with nothing to tune, and bad o
   CHECK_THROWS_WITH_AS(tune::run(sc, o),
                        "fixed.toml: key '--protocol' = \"both\": expected a protocol with a parameter written "
                        "{ tune = [lo, hi] } (its tunable keys: source.squeezing_db, "
-                       "protocol[1].steps[1].transmissivity, protocol[1].steps[2].transmissivity)",
+                       "both:tap_a.transmissivity, both:tap_b.transmissivity)",
                        InputError);
   o.protocol = "bare";
   CHECK_THROWS_WITH_AS(tune::run(sc, o),
@@ -263,7 +263,7 @@ TEST_CASE("heraldry tune on the shipped tuning scenario prints JSON and exits 3 
   std::string out;
   CHECK(run_tool("tune \"" + scenario + "\" --protocol \"subtract both\" --objective rate --json", out) == 0);
   CHECK(out.find("\"feasible\": true") != std::string::npos);
-  CHECK(out.find("\"name\": \"step3.transmissivity\"") != std::string::npos);
+  CHECK(out.find("\"name\": \"tap_b.transmissivity\"") != std::string::npos);
   CHECK(out.find("nan") == std::string::npos);
   // The heralding rate is at most the trial rate min(2 MHz, 1 / 11 us) = 9.1e4 /s (common
   // practice), so a floor of 1e5 /s cannot be met.

@@ -64,6 +64,11 @@ struct Step {
   Mode mode = Mode::B;                  // the mode the step acts on (not used by link)
   std::string counter;                  // kinds that use a counter: the name of a [counters.X] table
   std::vector<Param> params;            // one per type->params
+  /// Its name within the protocol, used for its parameters everywhere (sweep axes, tune, --set,
+  /// messages, the result file): "<kind>_<mode>" ("tap_b"), "#n" appended for the n-th step of
+  /// the same kind on the same mode ("tap_b#2"), "link" for the link. A parameter is
+  /// "<label>.<key>" ("tap_b.transmissivity"), and "<protocol>:<label>.<key>" with its protocol.
+  std::string label = "link";
   int line = 0;                         // line in the scenario file (for messages)
   /// The parameter named `key` of the kind's schema (std::out_of_range if there is none).
   const Param& param(std::string_view key) const;
@@ -112,8 +117,10 @@ std::string file_safe_name(std::string_view name);
 
 /// Parses and validates a scenario (the schema of protocols/demo.toml). Throws InputError naming
 /// file, line, key, value and what was expected (for an unknown key, the closest known one):
-/// - key: the dotted path, with 0-based indices for arrays ("protocol[1].steps[2].transmissivity",
-///   "link.distance_m.points", "link.distance_m[3]"); "<syntax>" for a TOML syntax error;
+/// - key: the dotted path ("link.distance_m.points", "link.distance_m[3]"; 0-based indices for
+///   array elements); a step's keys are named after its protocol and label
+///   ("subtract both:tap_b.transmissivity"; "subtract both:steps[2]" for a step table without one
+///   kind and one mode); "<syntax>" for a TOML syntax error;
 /// - line: of the offending value, or of the table that misses a required key (none for a
 ///   missing top-level table);
 /// - value: as written in the file (strings with their quotes); none for a missing key.

@@ -18,7 +18,7 @@ namespace heraldry::sweep {
 
 /// One axis of a protocol's grid. axes[0] is always the distance.
 struct Axis {
-  std::string name;      // "distance_m", "step2.transmissivity", "counters.lab.efficiency"
+  std::string name;      // "distance_m", "tap_b.transmissivity" (step label + key), "counters.lab.efficiency"
   std::string units;     // "m", "1", "Hz", ...
   std::string description;
   std::vector<double> values;

@@ -30,7 +30,7 @@ Objective objective_from_string(std::string_view name);
 
 /// One tunable parameter of a protocol.
 struct Knob {
-  std::string name;         // "source.squeezing_db" or "step2.transmissivity" (1-based step)
+  std::string name;         // "source.squeezing_db" or "tap_b.transmissivity" (step label + key)
   std::string units;        // "dB", "1", "K"
   std::string description;  // "tap on mode b: transmissivity"
   double lo = 0.0;          // the range from the scenario (SI; dB for the squeezing, as the

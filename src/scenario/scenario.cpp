@@ -370,6 +370,22 @@ Step read_step_table(const Table& st, const std::vector<Counter>& counters) {
   return s;
 }
 
+// The label of a step table before it is read: "<kind>_<mode>" when the table names one kind
+// and one mode, else nothing (the table's own errors then name it by its index).
+std::optional<std::string> pre_label(const toml::table& t) {
+  std::optional<std::string> label;
+  for (const steps::StepType* type : steps::registry()) {
+    if (type->role == steps::StepType::Role::link) continue;
+    const toml::node* n = t.get(type->name);
+    if (n == nullptr) continue;
+    if (label || !n->is_string()) return std::nullopt;
+    const std::string& mode = n->as_string()->get();
+    if (mode != "a" && mode != "b") return std::nullopt;
+    label = std::string(type->name) + "_" + mode;
+  }
+  return label;
+}
+
 Protocol read_protocol(const Table& p, const std::vector<Counter>& counters) {
   p.only({"name", "steps"});
   Protocol out;
@@ -377,32 +393,45 @@ Protocol read_protocol(const Table& p, const std::vector<Counter>& counters) {
   if (!name) p.missing("name", "a non-empty string");
   if (name->empty()) p.fail("name", "a non-empty string");
   out.name = *name;
+  // From here on the protocol's keys are named after it: "NAME:steps", "NAME:tap_b.transmissivity".
+  const std::string prefix = out.name + ":";
 
   const toml::node* steps = p.find("steps");
-  const std::string steps_key = p.key("steps");
+  const std::string steps_key = prefix + "steps";
   const char* one_link = "a list of steps with exactly one \"link\"";
   if (steps == nullptr) p.missing("steps", one_link);
   const toml::array* list = steps->as_array();
   if (list == nullptr) p.doc().fail_at(*steps, steps_key, one_link);
 
   int links = 0;
+  std::vector<std::string> labels;
   for (std::size_t j = 0; j < list->size(); ++j) {
     const toml::node& e = *list->get(j);
-    const std::string key = steps_key + "[" + std::to_string(j) + "]";
+    const std::string index_key = prefix + "steps[" + std::to_string(j) + "]";
     if (const auto* s = e.as_string()) {
       if (s->get() != "link") {
         const auto near = detail::closest(s->get(), {"link"});
-        p.doc().fail_at(e, key, "\"link\" or an inline step table", near ? "did you mean \"link\"?" : std::string());
+        p.doc().fail_at(e, index_key, "\"link\" or an inline step table", near ? "did you mean \"link\"?" : std::string());
       }
-      if (++links > 1) p.doc().fail_at(e, key, "exactly one \"link\" step per protocol", "a second one");
+      if (++links > 1) p.doc().fail_at(e, prefix + "link", "exactly one \"link\" step per protocol", "a second one");
       Step st;
       st.type = &steps::link_type();
+      st.label = "link";
       st.line = Document::line(e);
       out.steps.push_back(st);
     } else if (const auto* t = e.as_table()) {
-      out.steps.push_back(read_step_table(Table(p.doc(), *t, key, Document::line(e)), counters));
+      // The n-th step of one kind on one mode is "<kind>_<mode>#n" (n >= 2).
+      std::optional<std::string> label = pre_label(*t);
+      if (label) {
+        const auto seen = std::count(labels.begin(), labels.end(), *label);
+        labels.push_back(*label);
+        if (seen > 0) *label += "#" + std::to_string(seen + 1);
+      }
+      Step st = read_step_table(Table(p.doc(), *t, label ? prefix + *label : index_key, Document::line(e)), counters);
+      st.label = *label;  // a table without a label has failed in read_step_table
+      out.steps.push_back(std::move(st));
     } else {
-      p.doc().fail_at(e, key, "\"link\" or an inline step table");
+      p.doc().fail_at(e, index_key, "\"link\" or an inline step table");
     }
   }
   if (links == 0) p.doc().fail_at(*steps, steps_key, "exactly one \"link\" step per protocol", "found none");

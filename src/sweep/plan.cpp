@@ -59,7 +59,7 @@ Plan make_plan(const scenario::Scenario& sc) {
         const scenario::Param& param = step.params[k];
         if (!param.swept()) continue;
         const steps::ParamSchema& ps = step.type->params[k];
-        pp.axes.push_back({"step" + std::to_string(s + 1) + "." + std::string(ps.key), std::string(ps.units),
+        pp.axes.push_back({step.label + "." + std::string(ps.key), std::string(ps.units),
                            describe_step_param(step, ps.key), param.values, static_cast<int>(s), -1,
                            std::string(ps.key)});
       }

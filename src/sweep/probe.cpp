@@ -21,11 +21,12 @@ std::string number_text(double x) {
 
 void pin(Plan& plan, std::string_view setting) {
   const std::string text(setting);
-  const auto colon = text.find(':');
   const auto eq = text.rfind('=');
+  // The protocol's name may hold ':' itself; an axis name never does.
+  const auto colon = eq == std::string::npos ? text.rfind(':') : text.rfind(':', eq);
   if (colon == std::string::npos || eq == std::string::npos || eq < colon)
     throw InputError("--set", 0, "--set", "\"" + text + "\"",
-                     "PROTOCOL:AXIS=VALUE, e.g. \"subtract both:step3.transmissivity=0.9\"");
+                     "PROTOCOL:AXIS=VALUE, e.g. \"subtract both:tap_b.transmissivity=0.9\"");
   const std::string proto = text.substr(0, colon), axis = text.substr(colon + 1, eq - colon - 1);
   double value = 0.0;
   try {

@@ -28,9 +28,9 @@ std::string number_text(double x) {
 
 std::string quoted(std::string_view s) { return "\"" + std::string(s) + "\""; }
 
-// The dotted file key of a step parameter, as scenario messages write it (0-based indices).
-std::string file_key(std::size_t protocol, std::size_t step, std::string_view key) {
-  return "protocol[" + std::to_string(protocol) + "].steps[" + std::to_string(step) + "]." + std::string(key);
+// The full name of a step parameter, as scenario messages, --set and the result file write it.
+std::string file_key(const scenario::Protocol& protocol, std::size_t step, std::string_view key) {
+  return protocol.name + ":" + protocol.steps[step].label + "." + std::string(key);
 }
 
 // The scenario with only protocol p, every swept parameter of it (and of the counters) pinned
@@ -243,7 +243,7 @@ std::vector<Knob> knobs(const scenario::Scenario& sc, std::size_t protocol) {
       const scenario::Param& param = step.params[k];
       if (!param.tune) continue;
       const steps::ParamSchema& ps = step.type->params[k];
-      out.push_back({"step" + std::to_string(s + 1) + "." + std::string(ps.key), std::string(ps.units),
+      out.push_back({step.label + "." + std::string(ps.key), std::string(ps.units),
                      std::string(step.type->name) + " on mode " + to_string(step.mode) + ": " + std::string(ps.key),
                      param.tune->first, param.tune->second, static_cast<int>(s), static_cast<int>(k)});
     }
@@ -280,7 +280,7 @@ std::size_t check(const scenario::Scenario& sc, const Options& options) {
     const scenario::Protocol& proto = sc.protocols[p];
     for (std::size_t s = 0; s < proto.steps.size(); ++s)
       for (const auto& ps : proto.steps[s].type->params)
-        if (ps.type == steps::ParamSchema::Type::number) keys += ", " + file_key(p, s, ps.key);
+        if (ps.type == steps::ParamSchema::Type::number) keys += ", " + file_key(proto, s, ps.key);
     throw InputError(sc.path, 0, "--protocol", quoted(options.protocol),
                      "a protocol with a parameter written { tune = [lo, hi] }",
                      "its tunable keys: " + keys);

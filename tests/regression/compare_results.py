@@ -47,11 +47,38 @@ def group_map(ref, new):
     return mapping
 
 
-def translate(name, mapping):
+def axis_map(ref, new, mapping):
+    """Axis names matched by position in each protocol's `dims` attribute (the names of swept
+    parameters may change their form; their order and values may not)."""
+    names = {}
+    for old_group, new_group in mapping.items():
+        if not old_group.startswith("protocols/"):
+            continue
+        a, b = ref[old_group].attrs.get("dims"), new[new_group].attrs.get("dims")
+        if a is None or b is None:
+            continue
+        a, b = as_text(a).split(","), as_text(b).split(",")
+        if len(a) == len(b):
+            names[old_group.split("/", 1)[1]] = dict(zip(a, b))
+    return names
+
+
+def translate(name, mapping, axes=None):
     for old, new in mapping.items():
         if name == old or name.startswith(old + "/"):
-            return new + name[len(old):]
+            rest = name[len(old):]
+            group = old.split("/", 1)[1]
+            if axes and group in axes and rest.startswith("/axes/"):
+                rest = "/axes/" + axes[group].get(rest[len("/axes/"):], rest[len("/axes/"):])
+            return new + rest
     return name
+
+
+def translate_attr(key, group, axes):
+    """best_<axis> attributes of the verdict follow the axis names."""
+    if axes and group in axes and key.startswith("best_"):
+        return "best_" + axes[group].get(key[len("best_"):], key[len("best_"):])
+    return key
 
 
 def compare(ref, new, tol):
@@ -59,21 +86,26 @@ def compare(ref, new, tol):
     items = {}
     ref.visititems(lambda name, obj: items.update({name: obj}))
     mapping = group_map(ref, new)
+    axes = axis_map(ref, new, mapping)
     for name, obj in [("/", ref)] + sorted(items.items()):
-        target = translate(name, mapping)
+        target = translate(name, mapping, axes)
         if name != "/" and target not in new:
             problems.append(f"{name}: missing in the new file")
             continue
         other = new if name == "/" else new[target]
         if isinstance(obj, h5py.Dataset) and not same(obj[()], other[()], tol):
             problems.append(f"{name}: values differ")
+        group = name.split("/")[1] if name.count("/") >= 1 and name.startswith("verdict/") else None
         for key, value in obj.attrs.items():
             if key in IGNORED or key in WORDS:
                 continue
-            if key not in other.attrs:
+            new_key = translate_attr(key, group, axes)
+            if key == "dims":
+                continue  # compared through the axes themselves
+            if new_key not in other.attrs:
                 problems.append(f"{name}@{key}: missing in the new file")
-            elif not same(value, other.attrs[key], tol):
-                problems.append(f"{name}@{key}: {value!r} != {other.attrs[key]!r}")
+            elif not same(value, other.attrs[new_key], tol):
+                problems.append(f"{name}@{key}: {value!r} != {other.attrs[new_key]!r}")
     return problems, len(items)
 
 
