@@ -22,13 +22,20 @@ namespace heraldry::point {
 
 // ------------------------------------------------------------------------------ the point
 
-/// The two-mode squeezed thermal source (docs/physics.md §1.1).
+/// The two-mode squeezed thermal source (docs/physics.md §1.1), or a measured state.
 struct Source {
   double squeezing_r = 0.0;        // two-mode squeezing parameter r (lambda = tanh r)
   double thermal_photons = 0.0;    // per mode, at the source
   double bandwidth_hz = 1.0e6;     // mode rate: bounds the trial rate
-  double frequency_hz = 5.0e9;     // carrier of both modes
+  double frequency_hz = 5.0e9;     // carrier of both modes, unless one of the next is set
+  std::optional<double> frequency_a_hz;  // a nondegenerate source: mode a's own carrier
+  std::optional<double> frequency_b_hz;  // and mode b's
+  /// A measured two-mode state (standard form) replacing TMST(squeezing_r, thermal_photons).
+  std::optional<gaussian::StandardForm> state;
 };
+
+/// The carrier of one mode of the source.
+double mode_frequency_hz(const Source& source, Mode mode);
 
 /// How the Fock engine truncates.
 struct Numerics {
@@ -117,8 +124,11 @@ const Field* find_field(std::string_view name);
 
 // ------------------------------------------------------------------------------ baselines
 
-/// The source's two-mode squeezed thermal state (docs/physics.md §1.1).
+/// The source's two-mode state: the measured one, or TMST(r, n) (docs/physics.md §1.1).
 gaussian::StandardForm source_state(const Source& source);
+
+/// The bare link of a resolved point: its source through its link channels.
+gaussian::StandardForm bare_state(const PointSpec& spec);
 
 /// The bare link: the source state through the link's channels (Gaussian, exact).
 gaussian::StandardForm bare_state(const Source& source, const link::LinkBudget& budget);

@@ -2,6 +2,7 @@
 // typed and validated, in SI units. Only src/scenario knows the file format (TOML).
 #pragma once
 
+#include <functional>
 #include <optional>
 #include <string>
 #include <string_view>
@@ -9,6 +10,7 @@
 #include <vector>
 
 #include "heraldry/common.hpp"
+#include "heraldry/gaussian.hpp"
 #include "heraldry/link.hpp"
 #include "heraldry/steps.hpp"
 
@@ -25,20 +27,48 @@ struct Param {
   double first() const { return values.front(); }
 };
 
+struct Counter;
+struct Source;
+
+/// A hardware setting the scenario sweeps (a list or range where one number is usual): the
+/// source squeezing, an antenna's size or losses, the cryogenic line, a counter's gate or dead
+/// time. Each adds an axis, named by its file key ("link.antenna.diameter_m"), to every protocol
+/// it concerns (a counter's: the protocols that use the counter). The scenario's own structs
+/// hold the first value; `apply` sets one value (as written, in the key's units) on copies of
+/// them when a point is resolved.
+struct SweptSetting {
+  std::string name;                     // the file key
+  std::string units;                    // of the values as written
+  std::string description;
+  std::vector<double> values;           // as written
+  std::string counter;                  // a counter's setting: its name; else empty
+  std::function<void(Source&, link::LinkModel&, Counter&, double)> apply;
+};
+
 struct Source {
-  double frequency_hz = 5.0e9;
+  double frequency_hz = 5.0e9;          // both modes, unless frequency_a_hz / frequency_b_hz
+  std::optional<double> frequency_a_hz; // a nondegenerate source: mode a's own carrier
+  std::optional<double> frequency_b_hz; // and mode b's
   double squeezing_r = 0.0;             // squeezing parameter r, from `squeezing_db` (r = dB ln(10) / 20)
   /// `squeezing_db = { tune = [lo, hi] }`: the range of r `heraldry tune` explores; squeezing_r
   /// then holds the midpoint of the dB range for every other command.
   std::optional<std::pair<double, double>> squeezing_r_tune;
   double thermal_photons = 0.0;         // per mode, at the source
   double bandwidth_hz = 1.0e6;          // mode rate; bounds the trial rate
+  /// How the source was given: "squeezing" (squeezing_db and thermal_photons), "measured"
+  /// (measured_squeezing_db and measured_antisqueezing_db: squeezing_r and thermal_photons hold
+  /// the equivalent symmetric TMST) or "covariance" (a measured covariance matrix: `state`).
+  std::string given_as = "squeezing";
+  /// The measured two-mode state in standard form ([source.covariance]); replaces TMST(r, n).
+  std::optional<gaussian::StandardForm> state;
 };
 
 struct Link {
-  link::LinkModel model;                // frequency copied from the source
+  link::LinkModel model;                // frequencies copied from the source
   std::vector<double> distances_m;      // the distance axis (a single 0 for [link.direct])
   double target_m = 0.0;                // the distance the verdict talks about
+  /// Measured channels ([link.direct]): one measured link, no distance axis.
+  bool measured() const { return model.direct.has_value(); }
 };
 
 // The kinds are the physics kernel's own (one list, not a parallel one to keep in step).
@@ -97,6 +127,7 @@ struct Output {
 
 struct Scenario {
   std::string title;
+  std::vector<SweptSetting> settings;   // swept hardware settings (each an axis)
   std::string path;                     // where it was read from ("<demo>" for the built-in one)
   std::string text;                     // the file verbatim (stored in the results)
   Source source;

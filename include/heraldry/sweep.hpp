@@ -26,6 +26,7 @@ struct Axis {
   int step = -1;         // index into Protocol::steps, or -1
   int counter = -1;      // index into Scenario::counters, or -1
   std::string key;       // parameter key in the step, or "efficiency" / "dark_per_gate"
+  int setting = -1;      // index into Scenario::settings (a swept hardware setting), or -1
 };
 
 struct ProtocolPlan {
@@ -53,6 +54,7 @@ Plan make_plan(const scenario::Scenario& sc);
 
 /// The scenario's source and numerics as the point pipeline takes them.
 point::Source source_of(const scenario::Scenario& sc);
+point::Source source_of(const scenario::Source& source);
 point::Numerics numerics_of(const scenario::Scenario& sc);
 
 /// The resolved point of protocol p at a multi-index; `distance_m` (if >= 0) replaces the grid

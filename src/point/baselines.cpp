@@ -9,8 +9,18 @@
 
 namespace heraldry::point {
 
+double mode_frequency_hz(const Source& source, Mode mode) {
+  const auto& own = mode == Mode::A ? source.frequency_a_hz : source.frequency_b_hz;
+  return own ? *own : source.frequency_hz;
+}
+
 gaussian::StandardForm source_state(const Source& source) {
+  if (source.state) return *source.state;
   return gaussian::tmst(source.squeezing_r, source.thermal_photons);
+}
+
+gaussian::StandardForm bare_state(const PointSpec& spec) {
+  return gaussian::apply(gaussian::apply(source_state(spec.source), Mode::A, spec.channel_a), Mode::B, spec.channel_b);
 }
 
 gaussian::StandardForm bare_state(const Source& source, const link::LinkBudget& budget) {

@@ -107,7 +107,7 @@ bool any_dark_counts(const PointSpec& spec, std::size_t first) {
 StepContext context_for(const PointSpec& spec, const StepSpec& s, Weighting weighting, fock::Workspace* work) {
   StepContext c;
   c.counter = counter_of(spec, s);
-  c.frequency_hz = spec.source.frequency_hz;
+  c.frequency_hz = mode_frequency_hz(spec.source, s.mode);
   c.link_a = spec.channel_a;
   c.link_b = spec.channel_b;
   c.weighting = weighting;

@@ -47,6 +47,12 @@ std::optional<std::string> closest(std::string_view unknown,
 
 std::string format_number(double x) {
   char buf[40];
+  // Large powers of ten as 1e7 (not 10000000 or 1e+07): the bounds of the scenario keys.
+  const double e = std::abs(x) >= 1e5 ? std::round(std::log10(std::abs(x))) : 0.0;
+  if (e != 0.0 && std::abs(x) == std::pow(10.0, e)) {
+    std::snprintf(buf, sizeof buf, "%se%d", x < 0 ? "-1" : "1", static_cast<int>(e));
+    return buf;
+  }
   std::snprintf(buf, sizeof buf, "%.10g", x);
   return buf;
 }
@@ -322,6 +328,9 @@ void Table::fail(std::string_view member, const std::string& expected, const std
 std::optional<double> Table::number(std::string_view member, const Bounds& b) const {
   const toml::node* n = find(member);
   if (n == nullptr) return std::nullopt;
+  if (n->is_array() || n->is_table())
+    doc_->fail_at(*n, key(member), b.number_text(),
+                  "this key takes one value: it cannot be swept");
   if (!n->is_number()) doc_->fail_at(*n, key(member), b.number_text());
   const double x = n->value<double>().value_or(std::nan(""));
   if (!b.contains(x)) doc_->fail_at(*n, key(member), b.number_text());

@@ -8,6 +8,7 @@
 #include <filesystem>
 #include <fstream>
 #include <iterator>
+#include <memory>
 #include <sstream>
 
 #include "scenario/reader.hpp"
@@ -68,47 +69,231 @@ Table required_table(const Table& parent, std::string_view member, const std::st
   return *t;
 }
 
+// Domain bounds: every value the kernels receive is one they can represent (finite sums,
+// products and exponentials, no overflow of 2 n + 1 or of rate x gate). The bounds are wide
+// physical ones; each is named in its key's message.
+const Bounds frequency_ghz_bounds = {0.0, 1000.0, true, false};    // (0, 1000] GHz
+const Bounds squeezing_db_bounds = Bounds::closed(0.0, 30.0);
+const Bounds occupation_bounds = Bounds::closed(0.0, 1.0e7);       // thermal photons per mode
+const Bounds bandwidth_mhz_bounds = {0.0, 1.0e6, true, false};     // up to 1 THz
+const Bounds temperature_k_bounds = Bounds::closed(0.0, 1.0e4);
+const Bounds air_celsius_bounds = Bounds::closed(-100.0, 100.0);
+const Bounds pressure_hpa_bounds = {0.0, 2000.0, true, false};
+const Bounds vapour_bounds = Bounds::closed(0.0, 100.0);           // g/m^3
+const Bounds rain_bounds = Bounds::closed(0.0, 500.0);             // mm/h
+const Bounds db_per_km_bounds = Bounds::closed(0.0, 1.0e4);
+const Bounds db_per_m_bounds = Bounds::closed(0.0, 1.0e3);
+const Bounds diameter_bounds = {0.0, 1000.0, true, false};         // m
+const Bounds distance_bounds = Bounds::closed(0.0, 1.0e7);         // m
+const Bounds loss_db_bounds = Bounds::closed(0.0, 300.0);
+const Bounds return_loss_bounds = {0.0, 300.0, true, false};
+
+// A hardware number that may be swept: returns its first value as written; a list or range
+// also becomes a SweptSetting (an axis) applied by `apply` to copies of the structs.
+using Apply = std::function<void(Source&, link::LinkModel&, Counter&, double)>;
+std::optional<double> hardware(const Table& t, std::string_view key, const Bounds& b, const char* units,
+                               const std::string& description, Apply apply, std::vector<SweptSetting>& swept,
+                               const std::string& counter = {}) {
+  const auto p = t.param(key, b);
+  if (!p) return std::nullopt;
+  if (p->swept()) swept.push_back({t.key(key), units, description, p->values, counter, std::move(apply)});
+  return p->first();
+}
+
 // ------------------------------------------------------------------------------------ source
 
-Source read_source(const Table& root) {
-  const Table t = required_table(root, "source", "a [source] table");
-  t.only({"frequency_ghz", "squeezing_db", "thermal_photons", "bandwidth_mhz"});
-  Source s;
-  s.frequency_hz = t.required_number("frequency_ghz", positive) * 1e9;
-  const Bounds squeezing = Bounds::closed(0.0, 30.0);
-  const toml::node* sq = t.find("squeezing_db");
-  if (sq != nullptr && sq->is_table()) {
-    const auto tuned = t.table("squeezing_db");
-    if (!tuned->has("tune")) t.fail("squeezing_db", squeezing.number_text() + " or { tune = [lo, hi] }");
-    const auto [lo, hi] = tuned->tune_range(squeezing);
-    s.squeezing_r_tune = {squeezing_parameter_from_db(lo), squeezing_parameter_from_db(hi)};
-    s.squeezing_r = squeezing_parameter_from_db(0.5 * (lo + hi));
-  } else {
-    s.squeezing_r = squeezing_parameter_from_db(t.required_number("squeezing_db", squeezing));
+// [source.covariance]: a measured covariance matrix and its convention -> the standard form.
+gaussian::StandardForm read_covariance(const Table& c) {
+  c.only({"matrix", "vacuum_variance", "order", "max_phase_asymmetry"});
+  const toml::node* m = c.find("matrix");
+  const std::string expected = "a 4 x 4 array of numbers (rows of the covariance matrix)";
+  if (m == nullptr) c.missing("matrix", expected);
+  const toml::array* rows = m->as_array();
+  if (rows == nullptr || rows->size() != 4) c.doc().fail_at(*m, c.key("matrix"), expected);
+  gaussian::Covariance v;
+  for (std::size_t i = 0; i < 4; ++i) {
+    const toml::array* row = rows->get(i)->as_array();
+    if (row == nullptr || row->size() != 4) c.doc().fail_at(*rows->get(i), c.key("matrix") + "[" + std::to_string(i) + "]", "a row of 4 numbers");
+    for (std::size_t j = 0; j < 4; ++j) {
+      const toml::node& e = *row->get(j);
+      const double x = e.is_number() ? e.value<double>().value_or(std::nan("")) : std::nan("");
+      if (!std::isfinite(x) || std::abs(x) > 1.0e12)
+        c.doc().fail_at(e, c.key("matrix") + "[" + std::to_string(i) + "][" + std::to_string(j) + "]",
+                        "a finite number of magnitude <= 1e12");
+      v(static_cast<Eigen::Index>(i), static_cast<Eigen::Index>(j)) = x;
+    }
   }
-  s.thermal_photons = t.number_or("thermal_photons", non_negative, 0.0);
-  s.bandwidth_hz = t.required_number("bandwidth_mhz", positive) * 1e6;
+  gaussian::CovarianceConvention conv;
+  if (const auto vac = c.number("vacuum_variance", Bounds::any())) {
+    if (*vac == 1.0) conv.vacuum = gaussian::VacuumVariance::one;
+    else if (*vac == 0.5) conv.vacuum = gaussian::VacuumVariance::half;
+    else if (*vac == 0.25) conv.vacuum = gaussian::VacuumVariance::quarter;
+    else c.fail("vacuum_variance", "1 (x = a + a^dagger), 0.5 (x = (a + a^dagger)/sqrt 2) or 0.25 (x = (a + a^dagger)/2)");
+  }
+  conv.order = c.choice("order", {"xp_xp", "xx_pp"}).value_or(0) == 0 ? gaussian::QuadratureOrder::interleaved
+                                                                       : gaussian::QuadratureOrder::grouped;
+  const double asym = c.number_or("max_phase_asymmetry", Bounds::closed(0.0, 0.1), 1e-9);
+  try {
+    return gaussian::standard_form_from_measured(v, conv, asym, 1e-10, c.key("matrix"));
+  } catch (const InputError& e) {
+    c.doc().fail(Document::line(*m), e.key(), e.value(), e.expected(), e.hint());
+  }
+}
+
+Source read_source(const Table& root, std::vector<SweptSetting>& swept) {
+  const Table t = required_table(root, "source", "a [source] table");
+  t.only({"frequency_ghz", "frequency_a_ghz", "frequency_b_ghz", "squeezing_db", "thermal_photons", "bandwidth_mhz",
+          "measured_squeezing_db", "measured_antisqueezing_db", "covariance"});
+  Source s;
+  s.frequency_hz = t.required_number("frequency_ghz", frequency_ghz_bounds) * 1e9;
+  if (const auto fa = t.number("frequency_a_ghz", frequency_ghz_bounds)) s.frequency_a_hz = *fa * 1e9;
+  if (const auto fb = t.number("frequency_b_ghz", frequency_ghz_bounds)) s.frequency_b_hz = *fb * 1e9;
+
+  // Exactly one description of the state: squeezing_db (+ thermal_photons), the measured EPR
+  // variances, or a measured covariance matrix.
+  const bool measured = t.has("measured_squeezing_db") || t.has("measured_antisqueezing_db");
+  const bool covariance = t.has("covariance");
+  const int ways = (t.has("squeezing_db") ? 1 : 0) + (measured ? 1 : 0) + (covariance ? 1 : 0);
+  const char* three = "squeezing_db, measured_squeezing_db with measured_antisqueezing_db, or a [source.covariance] table";
+  if (ways == 0) t.missing("squeezing_db", std::string("one of ") + three);
+  if (ways > 1)
+    t.fail(covariance ? "covariance" : "measured_squeezing_db", std::string("only one of ") + three);
+  if ((measured || covariance) && t.has("thermal_photons"))
+    t.fail("thermal_photons", "no thermal_photons with a measured source", "the measurement includes them");
+  if (measured) {
+    const Bounds db = Bounds::closed(-30.0, 60.0);
+    const auto sq = t.number("measured_squeezing_db", db);
+    const auto anti = t.number("measured_antisqueezing_db", db);
+    if (!sq) t.missing("measured_squeezing_db", "a number in dB (the EPR variance below vacuum) with measured_antisqueezing_db");
+    if (!anti) t.missing("measured_antisqueezing_db", "a number in dB (the EPR variance above vacuum) with measured_squeezing_db");
+    try {
+      const gaussian::TmstParameters p = gaussian::tmst_from_measured_db(*sq, *anti);
+      s.squeezing_r = p.r;
+      s.thermal_photons = p.thermal_photons;
+    } catch (const InputError& e) {
+      t.fail("measured_antisqueezing_db", e.expected(), e.hint());
+    }
+    s.given_as = "measured";
+  } else if (covariance) {
+    const auto c = t.table("covariance");
+    s.state = read_covariance(*c);
+    s.given_as = "covariance";
+  } else {
+    const toml::node* sq = t.find("squeezing_db");
+    const toml::table* tt = sq->as_table();
+    if (tt != nullptr && tt->contains("tune")) {
+      const auto tuned = t.table("squeezing_db");
+      const auto [lo, hi] = tuned->tune_range(squeezing_db_bounds);
+      s.squeezing_r_tune = {squeezing_parameter_from_db(lo), squeezing_parameter_from_db(hi)};
+      s.squeezing_r = squeezing_parameter_from_db(0.5 * (lo + hi));
+    } else {
+      const auto db = hardware(t, "squeezing_db", squeezing_db_bounds, "dB", "two-mode squeezing at the source",
+                               [](Source& src, link::LinkModel&, Counter&, double v) {
+                                 src.squeezing_r = squeezing_parameter_from_db(v);
+                               },
+                               swept);
+      s.squeezing_r = squeezing_parameter_from_db(*db);
+    }
+    s.thermal_photons = t.number_or("thermal_photons", occupation_bounds, 0.0);
+  }
+  s.bandwidth_hz = t.required_number("bandwidth_mhz", bandwidth_mhz_bounds) * 1e6;
   return s;
 }
 
 // -------------------------------------------------------------------------------------- link
 
+// A measured channel: transmissivity and the environment's occupation, or the noise the lab
+// measured it to add, added_photons = (1 - tau) n_E (so n_E = added_photons / (1 - tau)).
 link::Channel read_channel(const Table& direct, std::string_view mode) {
   const Table c = required_table(direct, mode, "a { transmissivity, bath_photons } table");
-  c.only({"transmissivity", "bath_photons"});
+  c.only({"transmissivity", "bath_photons", "added_photons"});
   link::Channel ch;
   ch.transmissivity = c.required_number("transmissivity", unit_closed);
-  ch.bath_photons = c.number_or("bath_photons", non_negative, 0.0);
+  if (c.has("bath_photons") && c.has("added_photons"))
+    c.fail("added_photons", "only one of bath_photons and added_photons");
+  ch.bath_photons = c.number_or("bath_photons", occupation_bounds, 0.0);
+  if (const auto added = c.number("added_photons", occupation_bounds)) {
+    if (*added > 0.0 && ch.transmissivity >= 1.0)
+      c.fail("added_photons", "0 with transmissivity = 1", "a lossless channel adds no photons");
+    ch.bath_photons = *added > 0.0 ? *added / (1.0 - ch.transmissivity) : 0.0;
+    if (!(ch.bath_photons <= occupation_bounds.hi))
+      c.fail("added_photons", "added_photons / (1 - transmissivity) <= 1e7 (the environment's occupation)");
+  }
   return ch;
 }
 
-link::Antenna read_antenna(const Table& a) {
-  a.only({"diameter_m", "aperture_efficiency", "interface_loss", "interface_temperature_k"});
-  link::Antenna an;
-  an.diameter_m = a.required_number("diameter_m", positive);
-  an.aperture_efficiency = a.number_or("aperture_efficiency", unit_open_closed, an.aperture_efficiency);
-  an.interface_loss = a.number_or("interface_loss", unit_closed_open, an.interface_loss);
-  an.interface_temperature_k = a.number_or("interface_temperature_k", non_negative, an.interface_temperature_k);
+// One antenna key: its bounds, units, meaning, and how its value (as written) sets the field.
+struct AntennaKey {
+  const char* key;
+  Bounds bounds;
+  const char* units;
+  const char* description;
+  void (*set)(link::Antenna&, double);
+};
+
+const AntennaKey antenna_keys[] = {
+    {"diameter_m", diameter_bounds, "m", "antenna diameter", [](link::Antenna& a, double v) { a.diameter_m = v; }},
+    {"aperture_efficiency", {0.0, 1.0, true, false}, "1",
+     "taper efficiency: the part of the aperture efficiency that shapes the beam (Goubau's effective area)",
+     [](link::Antenna& a, double v) { a.aperture_efficiency = v; }},
+    {"interface_loss", {0.0, 1.0, false, true}, "1", "power lost at the cryostat/air interface",
+     [](link::Antenna& a, double v) { a.interface_loss = v; }},
+    {"interface_temperature_k", temperature_k_bounds, "K", "temperature of what couples in at the interface",
+     [](link::Antenna& a, double v) { a.interface_temperature_k = v; }},
+    {"spillover_loss", {0.0, 1.0, false, true}, "1", "power of the feed pattern that misses the aperture",
+     [](link::Antenna& a, double v) { a.spillover_loss = v; }},
+    {"spillover_temperature_k", temperature_k_bounds, "K", "temperature of the surroundings the spillover sees",
+     [](link::Antenna& a, double v) { a.spillover_temperature_k = v; }},
+    {"ohmic_loss_db", loss_db_bounds, "dB", "ohmic loss of feed, reflector and radome",
+     [](link::Antenna& a, double v) { a.ohmic_loss = link::lost_fraction_from_db(v); }},
+    {"physical_temperature_k", temperature_k_bounds, "K", "the antenna's physical temperature (its ohmic noise)",
+     [](link::Antenna& a, double v) { a.physical_temperature_k = v; }},
+    {"return_loss_db", return_loss_bounds, "dB", "return loss of the feed (mismatch: 10^(-RL/10) reflected)",
+     [](link::Antenna& a, double v) { a.mismatch_loss = link::reflected_fraction_from_return_loss_db(v); }},
+    {"mismatch_temperature_k", temperature_k_bounds, "K", "temperature of what the mismatch reflects in (the cold side)",
+     [](link::Antenna& a, double v) { a.mismatch_temperature_k = v; }},
+};
+
+enum class End { both, source, receiver };
+
+// The antenna of `end` in a model (the shared one for `both`).
+std::optional<link::Antenna>& antenna_of(link::LinkModel& m, End end) {
+  return end == End::both ? m.antenna : end == End::source ? m.source_antenna : m.receiver_antenna;
+}
+
+// [link.antenna], [link.source_antenna] or [link.receiver_antenna]: an end table starts from the
+// shared antenna (if any) and overrides the keys it writes. A swept key of the shared table also
+// moves the ends that do not override it.
+link::Antenna read_antenna(const Table& a, End end, const std::optional<link::Antenna>& shared,
+                           const std::shared_ptr<std::vector<std::string>>& written, std::vector<SweptSetting>& swept) {
+  std::vector<std::string_view> known;
+  for (const auto& k : antenna_keys) known.push_back(k.key);
+  a.only(known);
+  link::Antenna an = end == End::both || !shared ? link::Antenna{} : *shared;
+  if (!a.has("diameter_m") && (end == End::both || !shared))
+    a.missing("diameter_m", diameter_bounds.number_text() + " (the dish or horn aperture)");
+  for (const auto& k : antenna_keys) {
+    const std::string key = k.key;
+    const auto set = k.set;
+    Apply apply;
+    if (end == End::both) {
+      // The end tables read later list what they override in `written` ("source.key").
+      apply = [set, key, written](Source&, link::LinkModel& m, Counter&, double v) {
+        if (m.antenna) set(*m.antenna, v);
+        for (End e : {End::source, End::receiver}) {
+          const std::string tag = std::string(e == End::source ? "source." : "receiver.") + key;
+          if (antenna_of(m, e) && std::find(written->begin(), written->end(), tag) == written->end())
+            set(*antenna_of(m, e), v);
+        }
+      };
+    } else {
+      apply = [set, end](Source&, link::LinkModel& m, Counter&, double v) {
+        if (antenna_of(m, end)) set(*antenna_of(m, end), v);
+      };
+      if (a.has(key)) written->push_back(std::string(end == End::source ? "source." : "receiver.") + key);
+    }
+    if (const auto v = hardware(a, key, k.bounds, k.units, k.description, apply, swept)) set(an, *v);
+  }
   return an;
 }
 
@@ -117,15 +302,13 @@ link::Air read_air(const Table& a) {
           "attenuation_db_per_km"});
   link::Air air;
   air.model = a.choice("model", {"itu", "fixed"}).value_or(0) == 0 ? link::AirModel::itu : link::AirModel::fixed;
-  air.temperature_k =
-      a.number_or("temperature_c", Bounds::above(-celsius_zero_k), air.temperature_k - celsius_zero_k) +
-      celsius_zero_k;
-  air.pressure_hpa = a.number_or("pressure_hpa", positive, air.pressure_hpa);
-  air.water_vapour_gm3 = a.number_or("water_vapour_gm3", non_negative, air.water_vapour_gm3);
-  air.rain_mm_per_h = a.number_or("rain_mm_per_h", non_negative, air.rain_mm_per_h);
-  const auto fixed = a.number("attenuation_db_per_km", non_negative);
+  air.temperature_k = a.number_or("temperature_c", air_celsius_bounds, air.temperature_k - celsius_zero_k) + celsius_zero_k;
+  air.pressure_hpa = a.number_or("pressure_hpa", pressure_hpa_bounds, air.pressure_hpa);
+  air.water_vapour_gm3 = a.number_or("water_vapour_gm3", vapour_bounds, air.water_vapour_gm3);
+  air.rain_mm_per_h = a.number_or("rain_mm_per_h", rain_bounds, air.rain_mm_per_h);
+  const auto fixed = a.number("attenuation_db_per_km", db_per_km_bounds);
   if (air.model == link::AirModel::fixed) {
-    if (!fixed) a.missing("attenuation_db_per_km", "a number >= 0 with model = \"fixed\"");
+    if (!fixed) a.missing("attenuation_db_per_km", db_per_km_bounds.number_text() + " with model = \"fixed\"");
     air.fixed_db_per_km = *fixed;
   } else if (fixed) {
     a.fail("attenuation_db_per_km", "no fixed attenuation with model = \"itu\"",
@@ -134,52 +317,75 @@ link::Air read_air(const Table& a) {
   return air;
 }
 
-link::Line read_line(const Table& l) {
+link::Line read_line(const Table& l, std::vector<SweptSetting>& swept) {
   l.only({"loss_db_per_m", "temperature_k"});
   link::Line line;
-  line.loss_db_per_m = l.required_number("loss_db_per_m", non_negative);
-  line.temperature_k = l.number_or("temperature_k", non_negative, 0.05);
+  const auto loss = hardware(l, "loss_db_per_m", db_per_m_bounds, "dB/m", "cryogenic line loss",
+                             [](Source&, link::LinkModel& m, Counter&, double v) { m.line.loss_db_per_m = v; }, swept);
+  if (!loss) l.missing("loss_db_per_m", db_per_m_bounds.number_text());
+  line.loss_db_per_m = *loss;
+  line.temperature_k = hardware(l, "temperature_k", temperature_k_bounds, "K", "cryogenic line temperature",
+                                [](Source&, link::LinkModel& m, Counter&, double v) { m.line.temperature_k = v; }, swept)
+                           .value_or(0.05);
   return line;
 }
 
-Link read_link(const Table& root, const Source& source) {
+Link read_link(const Table& root, const Source& source, std::vector<SweptSetting>& swept) {
   const Table t = required_table(root, "link", "a [link] table");
-  t.only({"medium", "geometry", "distance_m", "target_m", "antenna", "air", "line", "direct"});
+  t.only({"medium", "geometry", "distance_m", "target_m", "antenna", "source_antenna", "receiver_antenna", "air",
+          "line", "direct"});
   Link out;
   link::LinkModel& m = out.model;
   m.frequency_hz = source.frequency_hz;
+  m.frequency_a_hz = source.frequency_a_hz;
+  m.frequency_b_hz = source.frequency_b_hz;
 
+  const auto direct = t.table("direct");
   const auto medium = t.choice("medium", {"air", "line"});
+  // Measured channels replace the model: no medium, geometry, distance or path tables.
+  if (direct) {
+    for (const char* key : {"medium", "geometry", "distance_m", "target_m", "antenna", "source_antenna",
+                            "receiver_antenna", "air", "line"})
+      if (t.has(key))
+        t.fail(key, "nothing but [link.direct] for measured channels",
+               "the measured channels replace the link model and the distance");
+    direct->only({"a", "b"});
+    m.direct = link::DirectChannels{read_channel(*direct, "a"), read_channel(*direct, "b")};
+    out.distances_m = {0.0};
+    out.target_m = 0.0;
+    return out;
+  }
   if (!medium) t.missing("medium", "\"air\" or \"line\"");
   m.medium = *medium == 0 ? link::Medium::air : link::Medium::line;
   m.geometry = t.choice("geometry", {"one-way", "midpoint"}).value_or(0) == 0 ? link::Geometry::one_way
                                                                                 : link::Geometry::midpoint;
-
-  if (const auto d = t.table("direct")) {
-    d->only({"a", "b"});
-    m.direct = link::DirectChannels{read_channel(*d, "a"), read_channel(*d, "b")};
-    if (t.has("distance_m"))
-      t.fail("distance_m", "no distance axis with [link.direct]", "the measured channels replace the distance");
-    out.distances_m = {0.0};
-  } else {
-    const auto p = t.param("distance_m", non_negative);
-    if (!p) t.missing("distance_m", "a number >= 0, a non-empty list of such numbers or a { from, to, points } table");
-    out.distances_m = p->values;
-  }
+  const auto p = t.param("distance_m", distance_bounds);
+  if (!p) t.missing("distance_m", distance_bounds.number_text() + ", a non-empty list of such numbers or a { from, to, points } table");
+  out.distances_m = p->values;
 
   // Tables that only one medium uses are refused with the other, rather than ignored.
   const char* air_only = "no such table with medium = \"line\"";
-  if (const auto a = t.table("antenna")) {
-    if (m.medium != link::Medium::air) t.fail("antenna", air_only, "antennas radiate into open air");
-    m.antenna = read_antenna(*a);
+  // Which keys the end tables override (for sweeps of the shared antenna); shared with the
+  // settings' closures.
+  auto written = std::make_shared<std::vector<std::string>>();
+  const std::pair<const char*, End> tables[] = {
+      {"antenna", End::both}, {"source_antenna", End::source}, {"receiver_antenna", End::receiver}};
+  for (const auto& [name, end] : tables) {
+    if (const auto a = t.table(name)) {
+      if (m.medium != link::Medium::air) t.fail(name, air_only, "antennas radiate into open air");
+      antenna_of(m, end) = read_antenna(*a, end, m.antenna, written, swept);
+    }
   }
+  if ((m.source_antenna || m.receiver_antenna) && !m.antenna && !(m.source_antenna && m.receiver_antenna))
+    t.fail(m.source_antenna ? "source_antenna" : "receiver_antenna",
+           "an antenna at both ends ([link.antenna] for both, or [link.source_antenna] and [link.receiver_antenna])");
   if (const auto a = t.table("air")) {
     if (m.medium != link::Medium::air) t.fail("air", air_only, "a cryogenic line has no air path");
     m.air = read_air(*a);
   }
   if (const auto l = t.table("line")) {
     if (m.medium != link::Medium::line) t.fail("line", "no such table with medium = \"air\"", "set medium = \"line\"");
-    m.line = read_line(*l);
+    m.line = read_line(*l, swept);
   } else if (m.medium == link::Medium::line) {
     t.missing("line", "a [link.line] table with medium = \"line\"");
   }
@@ -196,7 +402,7 @@ Link read_link(const Table& root, const Source& source) {
 
 // ---------------------------------------------------------------------------------- counters
 
-std::vector<Counter> read_counters(const Table& root) {
+std::vector<Counter> read_counters(const Table& root, std::vector<SweptSetting>& swept) {
   const auto t = root.table("counters");
   if (!t) return {};
   std::vector<Counter> out;
@@ -210,22 +416,32 @@ std::vector<Counter> read_counters(const Table& root) {
     if (!kind) c.missing("kind", "\"threshold\" or \"resolving\"");
     k.kind = *kind == 0 ? CounterKind::threshold : CounterKind::resolving;
     k.efficiency = c.required_param("efficiency", unit_closed);
-    const auto gate_ns = c.number("gate_ns", positive);
+    // Gate and dead time may be swept; a dark rate is converted per gate at each gate.
+    const auto gate_ns = hardware(c, "gate_ns", {1e-3, 1e12, false, false}, "ns", "counter gate (detection window)",
+                                  [](Source&, link::LinkModel&, Counter& k, double v) { k.gate_s = v * 1e-9; }, swept,
+                                  k.name);
     if (gate_ns) k.gate_s = *gate_ns * 1e-9;
-    k.reset_s = c.number_or("reset_us", non_negative, 0.0) * 1e-6;
+    k.reset_s = hardware(c, "reset_us", Bounds::closed(0.0, 1e9), "us", "counter dead time after a gate",
+                         [](Source&, link::LinkModel&, Counter& k, double v) { k.reset_s = v * 1e-6; }, swept, k.name)
+                    .value_or(0.0) *
+                1e-6;
 
     if (c.has("dark_rate_hz") && c.has("dark_per_gate"))
       c.fail("dark_per_gate", "only one of dark_rate_hz and dark_per_gate");
-    if (const auto rate = c.param("dark_rate_hz", non_negative)) {
+    if (const auto rate = c.param("dark_rate_hz", Bounds::closed(0.0, 1e12))) {
       if (!gate_ns) c.missing("gate_ns", "a number > 0 (the gate length) with dark_rate_hz");
       k.dark_rate_hz = rate;
       // Poissonian dark counts of rate R over a gate t: mean R t per gate; a threshold counter
       // clicks on at least one, p = 1 - exp(-R t).
+      double longest_gate = k.gate_s;
+      for (const auto& st : swept)
+        if (st.counter == k.name && st.name == c.key("gate_ns"))
+          for (double g : st.values) longest_gate = std::max(longest_gate, g * 1e-9);
       for (double r : rate->values) {
-        // A finite rate times a finite gate can overflow (1e308 Hz x 10 s): refused here, where
+        // A rate times a gate can exceed what a Poisson mean per gate can be: refused here, where
         // the message can name the key and the line, not later by the counter model.
-        if (!std::isfinite(r * k.gate_s))
-          c.fail("dark_rate_hz", "a rate whose dark counts per gate (rate x gate) are a finite number");
+        if (!(r * longest_gate <= 1e9))
+          c.fail("dark_rate_hz", "a rate whose dark counts per gate (rate x gate) are at most 1e9");
         k.dark_per_gate.values.push_back(steps::dark_per_gate(k.kind, r, k.gate_s));
       }
     } else if (k.kind == CounterKind::threshold) {
@@ -512,9 +728,9 @@ Scenario parse(std::string_view text, const std::string& file_name) {
   s.path = file_name;
   s.text = std::string(text);
   s.title = root.string("title").value_or("");
-  s.source = read_source(root);
-  s.link = read_link(root, s.source);
-  s.counters = read_counters(root);
+  s.source = read_source(root, s.settings);
+  s.link = read_link(root, s.source, s.settings);
+  s.counters = read_counters(root, s.settings);
   s.protocols = read_protocols(root, s.counters);
   s.numerics = read_numerics(root);
   s.output = read_output(root);

@@ -52,7 +52,13 @@ Plan make_plan(const scenario::Scenario& sc) {
     ProtocolPlan pp;
     pp.name = proto.name;
     pp.axes.push_back({"distance_m", "m", "distance between source and receiver (one-way) or between the receivers (midpoint)",
-                       sc.link.distances_m, -1, -1, ""});
+                       sc.link.distances_m, -1, -1, "", -1});
+    // Swept settings of the source and the link concern every protocol.
+    for (std::size_t k = 0; k < sc.settings.size(); ++k) {
+      const scenario::SweptSetting& st = sc.settings[k];
+      if (!st.counter.empty()) continue;
+      pp.axes.push_back({st.name, st.units, st.description, st.values, -1, -1, "", static_cast<int>(k)});
+    }
     for (std::size_t s = 0; s < proto.steps.size(); ++s) {
       const scenario::Step& step = proto.steps[s];
       for (std::size_t k = 0; k < step.params.size(); ++k) {
@@ -61,7 +67,7 @@ Plan make_plan(const scenario::Scenario& sc) {
         const steps::ParamSchema& ps = step.type->params[k];
         pp.axes.push_back({step.label + "." + std::string(ps.key), std::string(ps.units),
                            describe_step_param(step, ps.key), param.values, static_cast<int>(s), -1,
-                           std::string(ps.key)});
+                           std::string(ps.key), -1});
       }
     }
     for (std::size_t c = 0; c < sc.counters.size(); ++c) {
@@ -69,16 +75,21 @@ Plan make_plan(const scenario::Scenario& sc) {
       if (!protocol_uses_counter(proto, counter.name)) continue;
       if (counter.efficiency.swept())
         pp.axes.push_back({"counters." + counter.name + ".efficiency", "1", "counter efficiency",
-                           counter.efficiency.values, -1, static_cast<int>(c), "efficiency"});
+                           counter.efficiency.values, -1, static_cast<int>(c), "efficiency", -1});
       // A dark rate swept by the user stays a rate on its axis (Hz); resolve converts it per gate.
       if (counter.dark_rate_hz && counter.dark_rate_hz->swept())
         pp.axes.push_back({"counters." + counter.name + ".dark_rate_hz", "Hz", "counter dark-count rate",
-                           counter.dark_rate_hz->values, -1, static_cast<int>(c), "dark_rate_hz"});
+                           counter.dark_rate_hz->values, -1, static_cast<int>(c), "dark_rate_hz", -1});
       else if (counter.dark_per_gate.swept())
         pp.axes.push_back({"counters." + counter.name + ".dark_per_gate", "1",
                            counter.kind == scenario::CounterKind::threshold ? "dark-click probability per gate"
                                                                            : "mean dark counts per gate",
-                           counter.dark_per_gate.values, -1, static_cast<int>(c), "dark_per_gate"});
+                           counter.dark_per_gate.values, -1, static_cast<int>(c), "dark_per_gate", -1});
+      for (std::size_t k = 0; k < sc.settings.size(); ++k) {
+        const scenario::SweptSetting& st = sc.settings[k];
+        if (st.counter != counter.name) continue;
+        pp.axes.push_back({st.name, st.units, st.description, st.values, -1, static_cast<int>(c), "", static_cast<int>(k)});
+      }
     }
     plan.protocols.push_back(std::move(pp));
   }
@@ -93,21 +104,26 @@ double value_at(const ProtocolPlan& pp, std::span<const std::size_t> index, int 
                 const std::string& key, const scenario::Param& param) {
   for (std::size_t a = 1; a < pp.axes.size(); ++a) {
     const Axis& ax = pp.axes[a];
-    if (ax.step == step && ax.counter == counter && ax.key == key) return ax.values[index[a]];
+    if (ax.setting < 0 && ax.step == step && ax.counter == counter && ax.key == key) return ax.values[index[a]];
   }
   return param.first();
 }
 
 }  // namespace
 
-point::Source source_of(const scenario::Scenario& sc) {
+point::Source source_of(const scenario::Source& source) {
   point::Source src;
-  src.squeezing_r = sc.source.squeezing_r;
-  src.thermal_photons = sc.source.thermal_photons;
-  src.bandwidth_hz = sc.source.bandwidth_hz;
-  src.frequency_hz = sc.source.frequency_hz;
+  src.squeezing_r = source.squeezing_r;
+  src.thermal_photons = source.thermal_photons;
+  src.bandwidth_hz = source.bandwidth_hz;
+  src.frequency_hz = source.frequency_hz;
+  src.frequency_a_hz = source.frequency_a_hz;
+  src.frequency_b_hz = source.frequency_b_hz;
+  src.state = source.state;
   return src;
 }
+
+point::Source source_of(const scenario::Scenario& sc) { return source_of(sc.source); }
 
 point::Numerics numerics_of(const scenario::Scenario& sc) {
   point::Numerics n;
@@ -126,9 +142,23 @@ point::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
   if (index.size() != pp.axes.size()) throw std::invalid_argument("resolve: index rank differs from the grid");
   const double d = distance_m >= 0.0 ? distance_m : pp.axes[0].values[index[0]];
 
+  // The swept hardware settings at this point, applied to copies of the source, the link model
+  // and the counters.
+  scenario::Source source = sc.source;
+  link::LinkModel model = sc.link.model;
+  std::vector<scenario::Counter> counters = sc.counters;
+  scenario::Counter none;
+  for (std::size_t a = 1; a < pp.axes.size(); ++a) {
+    const Axis& ax = pp.axes[a];
+    if (ax.setting < 0) continue;
+    const scenario::SweptSetting& st = sc.settings.at(static_cast<std::size_t>(ax.setting));
+    st.apply(source, model, ax.counter >= 0 ? counters.at(static_cast<std::size_t>(ax.counter)) : none,
+             ax.values[index[a]]);
+  }
+
   point::PointSpec spec;
-  spec.source = source_of(sc);
-  const link::LinkBudget budget = link::link_budget(sc.link.model, d);
+  spec.source = source_of(source);
+  const link::LinkBudget budget = link::link_budget(model, d);
   spec.channel_a = budget.a.channel;
   spec.channel_b = budget.b.channel;
 
@@ -142,17 +172,17 @@ point::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
       out.values.push_back(value_at(pp, index, static_cast<int>(s), -1, std::string(step.type->params[k].key),
                                     step.params[k]));
     if (step.type->uses_counter) {
-      const auto it = std::find_if(sc.counters.begin(), sc.counters.end(),
+      const auto it = std::find_if(counters.begin(), counters.end(),
                                    [&](const scenario::Counter& c) { return c.name == step.counter; });
-      if (it == sc.counters.end()) throw std::logic_error("resolve: undefined counter survived validation");
-      const std::size_t ci = static_cast<std::size_t>(it - sc.counters.begin());
+      if (it == counters.end()) throw std::logic_error("resolve: undefined counter survived validation");
+      const std::size_t ci = static_cast<std::size_t>(it - counters.begin());
       if (counter_slot[ci] < 0) {
         steps::CounterModel m;
         m.kind = it->kind;
         m.efficiency = value_at(pp, index, -1, static_cast<int>(ci), "efficiency", it->efficiency);
         m.dark = value_at(pp, index, -1, static_cast<int>(ci), "dark_per_gate", it->dark_per_gate);
-        // A swept dark rate stays a rate on its axis (Hz); converted per gate here.
-        if (it->dark_rate_hz && it->dark_rate_hz->swept())
+        // A dark rate stays a rate on its axis (Hz); converted per gate here, at this point's gate.
+        if (it->dark_rate_hz)
           m.dark = steps::dark_per_gate(
               it->kind, value_at(pp, index, -1, static_cast<int>(ci), "dark_rate_hz", *it->dark_rate_hz), it->gate_s);
         m.gate_s = it->gate_s;

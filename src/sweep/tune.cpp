@@ -43,7 +43,9 @@ scenario::Scenario pinned(const scenario::Scenario& sc, std::size_t p) {
   for (auto& c : w.counters) {
     c.efficiency.values = {c.efficiency.first()};
     c.dark_per_gate.values = {c.dark_per_gate.first()};
+    if (c.dark_rate_hz) c.dark_rate_hz->values = {c.dark_rate_hz->first()};
   }
+  w.settings.clear();  // swept hardware at its first value (the scenario's structs hold it)
   return w;
 }
 
