@@ -11,7 +11,8 @@ struct Crossing {
   enum class Kind {
     crossed,         ///< f > 0 before `distance`, f <= 0 just after it (refined root)
     never_positive,  ///< f <= 0 at the first grid point already
-    beyond_grid      ///< f > 0 at the last grid point: the crossing lies beyond the grid
+    beyond_grid,     ///< f > 0 at the last grid point: the crossing lies beyond the grid
+    never_crosses    ///< f > 0 at every distance, provably (e.g. entanglement over pure loss)
   };
   Kind kind = Kind::never_positive;
   double distance = 0.0;  ///< the refined root (crossed), the first (never_positive) or last grid point

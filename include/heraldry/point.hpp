@@ -174,7 +174,9 @@ LinkTable link_table(const Source& source, const link::LinkModel& model, std::sp
 
 /// Where the bare link stops being entangled (E_N > 0) and stops beating the classical
 /// teleportation fidelity 1/2, along an increasing grid (at least two points). The Gaussian
-/// layer is instant: a crossing beyond the grid is found by scanning on up to 1e7 m.
+/// layer is instant: a crossing beyond the grid is found by scanning on up to 1e7 m. Over pure
+/// loss (no bath anywhere on the path) an entangled source never becomes separable: the survival
+/// is Crossing::Kind::never_crosses.
 struct BareCrossings {
   Crossing survival;
   Crossing fidelity_half;

@@ -21,6 +21,10 @@ struct ProtocolVerdict {
   std::string name;
   /// The evaluation at the target distance with the best setting (every field of the point).
   point::PointResult at_target;
+  /// The bare link (Gaussian) at the target with the best setting's hardware (the same as the
+  /// verdict's bare link unless hardware is swept): what "pays off" compares with.
+  double bare_log_negativity = 0.0;
+  double bare_fidelity = 0.0;
   /// Distance where the protocol stops beating the bare link, in E_N and in fidelity.
   Crossing breakeven_log_negativity;
   Crossing breakeven_fidelity;
@@ -36,6 +40,7 @@ struct ProtocolVerdict {
   std::vector<std::string> slice_axes;
   std::vector<std::size_t> slice_shape;
   std::vector<point::PointResult> slice;
+  std::vector<double> slice_bare_log_negativity;   // the bare link at each setting's hardware
   bool pays_off_log_negativity = false;
   bool pays_off_fidelity = false;
   std::string summary;                        // one line in words
@@ -43,6 +48,7 @@ struct ProtocolVerdict {
 
 struct Verdict {
   double target_m = 0.0;
+  bool measured = false;                      // one measured link ([link.direct]): no distances
   double bare_log_negativity = 0.0;           // Gaussian layer, at the target
   double bare_fidelity = 0.0;
   /// The midpoint-relay baseline at the target (Gaussian swapping; absent for direct channels).
@@ -53,11 +59,12 @@ struct Verdict {
   std::vector<ProtocolVerdict> protocols;
 };
 
-/// The verdict of a complete run from its grid results (`tables`, one per protocol of `plan`)
-/// and the bare link on the grid: evaluates every swept setting at the target distance, keeps
-/// the best E_N, and refines the crossings between grid points (to 1e-4 of the grid step), in
-/// parallel on `threads` threads (src/verdict/verdict.cpp).
+/// The verdict of a complete run from its grid results (`tables`, one per protocol of `plan`):
+/// evaluates every swept setting at the target distance, keeps the best E_N, compares it with
+/// the bare link of the same hardware, and refines the crossings between grid points (to 1e-4 of
+/// the grid step), in parallel on `threads` threads (src/verdict/verdict.cpp). A gain below 1e-9
+/// is round-off, not a gain.
 Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span<const sweep::ProtocolTable> tables,
-                const point::LinkTable& link, int threads = 1);
+                int threads = 1);
 
 }  // namespace heraldry::verdict

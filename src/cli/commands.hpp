@@ -45,6 +45,10 @@ int cmd_link(const std::string& scenario);
 int cmd_probe(const ProbeOptions& options);
 int cmd_tune(const TuneOptions& options);
 
+/// The caution line of an open-air link whose antennas are ideal (empty when they are not, or
+/// for a line or measured channels): Goubau's best case, with typical real losses.
+std::string antenna_caution(const scenario::Scenario& sc);
+
 /// The verdict as a terminal table plus one line per protocol in words (src/cli/format.cpp).
 std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict& v);
 

@@ -16,6 +16,7 @@ std::string describe_crossing(const Crossing& c) {
     case Crossing::Kind::crossed: std::snprintf(buf, sizeof buf, "%.4g m", c.distance); break;
     case Crossing::Kind::never_positive: std::snprintf(buf, sizeof buf, "never"); break;
     case Crossing::Kind::beyond_grid: std::snprintf(buf, sizeof buf, "> %.4g m", c.distance); break;
+    case Crossing::Kind::never_crosses: std::snprintf(buf, sizeof buf, "never breaks (pure loss)"); break;
   }
   return buf;
 }
@@ -24,13 +25,21 @@ std::string describe_crossing(const Crossing& c) {
 
 std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict& v) {
   std::ostringstream out;
-  char buf[512];
-  std::snprintf(buf, sizeof buf, "Verdict at the target distance %.4g m (%s)\n", v.target_m, sc.title.c_str());
+  char buf[1024];
+  if (v.measured) {
+    std::snprintf(buf, sizeof buf, "Verdict for the measured link (%s)\n", sc.title.c_str());
+    out << buf;
+    std::snprintf(buf, sizeof buf, "  bare link: E_N %.4f ebit, fidelity %.4f%s\n", v.bare_log_negativity, v.bare_fidelity,
+                  v.bare_log_negativity > 0.0 ? "" : "; separable: no local stage can restore entanglement");
+  } else {
+    std::snprintf(buf, sizeof buf, "Verdict at the target distance %.4g m (%s)\n", v.target_m, sc.title.c_str());
+    out << buf;
+    std::snprintf(buf, sizeof buf, "  bare link: E_N %.4f ebit, fidelity %.4f; entanglement survives to %s, fidelity > 1/2 to %s\n",
+                  v.bare_log_negativity, v.bare_fidelity, describe_crossing(v.survival).c_str(),
+                  describe_crossing(v.fidelity_half).c_str());
+  }
   out << buf;
-  std::snprintf(buf, sizeof buf, "  bare link: E_N %.4f ebit, fidelity %.4f; entanglement survives to %s, fidelity > 1/2 to %s\n",
-                v.bare_log_negativity, v.bare_fidelity, describe_crossing(v.survival).c_str(),
-                describe_crossing(v.fidelity_half).c_str());
-  out << buf;
+  if (const std::string caution = antenna_caution(sc); !caution.empty()) out << "  " << caution << "\n";
   if (v.relay_log_negativity)
     out << "  midpoint relay (Gaussian entanglement swapping, ideal Bell measurement): E_N "
         << std::to_string(*v.relay_log_negativity).substr(0, 6) << " ebit, fidelity "
@@ -40,10 +49,13 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
   out << buf;
   for (const auto& p : v.protocols) {
     const point::PointResult& r = p.at_target;
+    // Distances mean nothing on one measured link.
+    const std::string en = v.measured ? "-" : describe_crossing(p.breakeven_log_negativity);
+    const std::string f = v.measured ? "-" : describe_crossing(p.breakeven_fidelity);
+    const std::string half = v.measured ? "-" : describe_crossing(p.fidelity_half);
     std::snprintf(buf, sizeof buf, "  %-22.22s %11.4g %11.4g %8.2f %8.4f %8.4f %13s %13s %11s\n", p.name.c_str(),
                   r.success_probability, r.heralding_rate_hz, 100.0 * r.false_herald_fraction, r.log_negativity,
-                  r.fidelity, describe_crossing(p.breakeven_log_negativity).c_str(),
-                  describe_crossing(p.breakeven_fidelity).c_str(), describe_crossing(p.fidelity_half).c_str());
+                  r.fidelity, en.c_str(), f.c_str(), half.c_str());
     out << buf;
   }
   for (const auto& p : v.protocols) {
@@ -72,7 +84,13 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
     for (const auto& q : plan.protocols)
       if (q.name == p.name) pp = &q;
     if (!pp) continue;
-    out << "  " << p.name << ": E_N gain over the bare link at " << v.target_m << " m (rows " << p.slice_axes[0]
+    std::ostringstream place;
+    place.precision(6);
+    if (v.measured)
+      place << "on the measured link";
+    else
+      place << "at " << v.target_m << " m";
+    out << "  " << p.name << ": E_N gain over the bare link " << place.str() << " (rows " << p.slice_axes[0]
         << ", columns " << p.slice_axes[1] << "; * pays off)\n";
     std::snprintf(buf, sizeof buf, "  %12s", "");
     out << buf;
@@ -89,7 +107,7 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
         if (p.slice[k].status != Status::ok) {
           std::snprintf(buf, sizeof buf, " %10s", "failed");
         } else {
-          const double gain = p.slice[k].log_negativity - v.bare_log_negativity;
+          const double gain = p.slice[k].log_negativity - p.slice_bare_log_negativity[k];
           std::snprintf(buf, sizeof buf, " %+9.3f%c", gain, gain > 0.0 ? '*' : ' ');
         }
         out << buf;

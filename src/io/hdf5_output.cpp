@@ -128,6 +128,7 @@ const char* crossing_kind(const Crossing& c) {
     case Crossing::Kind::crossed: return "crossed";
     case Crossing::Kind::never_positive: return "never";
     case Crossing::Kind::beyond_grid: return "beyond grid";
+    case Crossing::Kind::never_crosses: return "never breaks";
   }
   return "?";
 }
@@ -224,9 +225,11 @@ void write_verdict(H5::H5File& file, const verdict::Verdict& v, const sweep::Pla
   H5::Group g = file.createGroup("/verdict");
   attr(g, "description",
        std::string("figures at the target distance; *_kind says whether the distance is a refined crossing "
-                   "('crossed'), the crossing lies beyond the grid ('beyond grid', value = last grid point) or the "
-                   "figure was never above its reference ('never', value = first grid point)"));
+                   "('crossed'), the crossing lies beyond the grid ('beyond grid', value = last grid point), the "
+                   "figure was never above its reference ('never', value = first grid point) or never falls below it "
+                   "('never breaks': entanglement over pure loss)"));
   attr(g, "target_m", v.target_m);
+  attr(g, "measured_link", static_cast<long long>(v.measured ? 1 : 0));
   attr(g, "bare_log_negativity", v.bare_log_negativity);
   attr(g, "bare_fidelity", v.bare_fidelity);
   if (v.relay_log_negativity) {
@@ -249,6 +252,8 @@ void write_verdict(H5::H5File& file, const verdict::Verdict& v, const sweep::Pla
       else
         attr(pg, name.c_str(), x);
     }
+    attr(pg, "bare_log_negativity", p.bare_log_negativity);
+    attr(pg, "bare_fidelity", p.bare_fidelity);
     crossing_attrs(pg, "breakeven_log_negativity", p.breakeven_log_negativity);
     crossing_attrs(pg, "breakeven_fidelity", p.breakeven_fidelity);
     crossing_attrs(pg, "fidelity_half", p.fidelity_half);
@@ -272,6 +277,9 @@ void write_verdict(H5::H5File& file, const verdict::Verdict& v, const sweep::Pla
       for (std::size_t a = 1; a < pp.axes.size(); ++a) scales.emplace_back(axis_scale(ag, pp.axes[a]), pp.axes[a].name);
       std::vector<hsize_t> shape(p.slice_shape.begin(), p.slice_shape.end());
       fields_datasets(tg, shape, p.slice, scales, "at the target distance: ");
+      attach_scales(dataset(tg, "bare_log_negativity", shape, p.slice_bare_log_negativity, "ebit",
+                            "log-negativity of the bare link with each setting's hardware at the target distance"),
+                    scales);
     }
   }
 }

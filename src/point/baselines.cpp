@@ -96,6 +96,16 @@ LinkTable link_table(const Source& source, const link::LinkModel& model, std::sp
   return t;
 }
 
+// A path whose every stage couples in vacuum (bath 0 on both modes at every distance): a line at
+// 0 K, or measured channels without noise. Checked at the grid's ends and far beyond.
+bool pure_loss(const link::LinkModel& model, std::span<const double> grid) {
+  for (double d : {grid.front(), grid.back(), 1e7}) {
+    const link::LinkBudget b = link::link_budget(model, d);
+    if (b.a.channel.bath_photons != 0.0 || b.b.channel.bath_photons != 0.0) return false;
+  }
+  return true;
+}
+
 BareCrossings bare_crossings(const Source& source, const link::LinkModel& model, std::span<const double> grid) {
   const std::function<double(double)> en = [&](double d) { return bare_signed_log_negativity(source, model, d); };
   const std::function<double(double)> fh = [&](double d) {
@@ -105,7 +115,13 @@ BareCrossings bare_crossings(const Source& source, const link::LinkModel& model,
     const Crossing c = last_downward_crossing(f, grid);
     return c.kind == Crossing::Kind::beyond_grid ? continue_crossing(f, grid.back(), 1e7) : c;
   };
-  return {scan(en), scan(fh)};
+  BareCrossings out{scan(en), scan(fh)};
+  // Pure loss never breaks entanglement: in standard form (a-1)(b-1) < c^2 is kept, since loss
+  // of transmissivity tau on a mode scales b-1 (or a-1) and c^2 both by tau (closed form). A
+  // numerical "crossing" far out is the round-off of E_N -> 0, not a physical limit.
+  if (out.survival.kind != Crossing::Kind::never_positive && pure_loss(model, grid))
+    out.survival = {Crossing::Kind::never_crosses, grid.back()};
+  return out;
 }
 
 }  // namespace heraldry::point

@@ -178,7 +178,7 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
     summary.file = partial;
   } else {
     const auto tv = Clock::now();
-    data.verdict = verdict::compute(sc, plan, data.protocols, data.link, threads);
+    data.verdict = verdict::compute(sc, plan, data.protocols, threads);
     summary.verdict_seconds = std::chrono::duration<double>(Clock::now() - tv).count();
     output::write_file(summary.file, sc, plan, data, prov, true);
     fs::remove(partial, ec);

@@ -17,6 +17,17 @@ namespace {
 
 bool usable(const point::PointResult& r) { return r.status == Status::ok; }
 
+// A gain smaller than this is round-off, not a gain (E_N and F are computed to ~1e-12; the
+// figures' truncation error is bounded by the tolerance, at least 1e-20 of it).
+constexpr double gain_floor = 1e-9;
+
+// A protocol without heralded steps (only the link and known losses): the link itself.
+bool heralds(const scenario::Protocol& proto) {
+  for (const auto& s : proto.steps)
+    if (s.type->role == steps::StepType::Role::herald) return true;
+  return false;
+}
+
 // A setting that did not reach its budget shows no figures in the trade map.
 point::PointResult shown(const point::PointResult& r) {
   if (usable(r)) return r;
@@ -30,24 +41,28 @@ point::PointResult shown(const point::PointResult& r) {
 }
 
 // One line in words: does the protocol pay off at the target, and at what rate?
-std::string summarise(const sweep::ProtocolPlan& pp, const ProtocolVerdict& pv, const Verdict& v) {
+std::string summarise(const scenario::Protocol& proto, const ProtocolVerdict& pv, const Verdict& v) {
   const point::PointResult& best = pv.at_target;
   std::ostringstream line;
   line.precision(3);
-  const double target = v.target_m;
+  std::ostringstream place;
+  place.precision(4);
+  if (v.measured)
+    place << "on the measured link";
+  else
+    place << "at " << v.target_m << " m";
   if (!usable(best)) {
-    line << "no verdict at " << target << " m: " << to_string(best.status);
+    line << "no verdict " << place.str() << ": " << to_string(best.status);
     if (best.status == Status::truncation_budget_missed) line << " (needs cutoff " << best.cutoff_needed << ")";
     return line.str();
   }
-  const bool is_bare = pp.axes.size() == 1 && std::abs(best.success_probability - 1.0) < 1e-12;
-  if (is_bare) {
+  if (!heralds(proto)) {
     line << "no heralding: this is the link itself (E_N " << best.log_negativity << ", F " << best.fidelity << ")";
     return line.str();
   }
-  line << (pv.pays_off_log_negativity ? "pays off" : "does not pay off") << " at " << target << " m: E_N "
-       << best.log_negativity << " vs " << v.bare_log_negativity << " bare, F " << best.fidelity << " vs "
-       << v.bare_fidelity << " bare";
+  line << (pv.pays_off_log_negativity ? "pays off" : "does not pay off") << " " << place.str() << ": E_N "
+       << best.log_negativity << " vs " << pv.bare_log_negativity << " bare, F " << best.fidelity << " vs "
+       << pv.bare_fidelity << " bare";
   if (pv.pays_off_log_negativity && !pv.pays_off_fidelity) line << " (entanglement up, teleportation fidelity not)";
   if (!pv.pays_off_log_negativity && pv.pays_off_fidelity) line << " (fidelity up, entanglement not)";
   line << "; " << best.heralding_rate_hz << " heralded pairs/s";
@@ -62,11 +77,12 @@ std::string summarise(const sweep::ProtocolPlan& pp, const ProtocolVerdict& pv, 
 }  // namespace
 
 Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span<const sweep::ProtocolTable> tables,
-                const point::LinkTable& link, int threads) {
+                int threads) {
   Verdict v;
   const auto& grid = sc.link.distances_m;
   const point::Source source = sweep::source_of(sc);
   v.target_m = sc.link.target_m;
+  v.measured = sc.link.measured();
   const point::LinkPoint target = point::link_point(source, sc.link.model, v.target_m);
   v.bare_log_negativity = target.log_negativity;
   v.bare_fidelity = target.fidelity;
@@ -86,23 +102,27 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
     std::size_t protocol;
     std::vector<std::size_t> index;
     point::PointResult result;
+    gaussian::StandardForm bare;  // the bare link with this setting's hardware
   };
   std::vector<TargetJob> target_jobs;
   for (std::size_t p = 0; p < np; ++p) {
     const sweep::ProtocolPlan& pp = plan.protocols[p];
     const std::size_t slice = pp.size() / pp.axes[0].values.size();
-    for (std::size_t s = 0; s < slice; ++s) target_jobs.push_back({p, pp.unflatten(s), {}});
+    for (std::size_t s = 0; s < slice; ++s) target_jobs.push_back({p, pp.unflatten(s), {}, {}});
   }
   std::vector<std::size_t> todo(target_jobs.size());
   for (std::size_t j = 0; j < todo.size(); ++j) todo[j] = j;
   sweep::dispatch(todo, threads,
                   [&](std::size_t j) {
-                    target_jobs[j].result = point::evaluate(
-                        sweep::resolve(sc, plan, target_jobs[j].protocol, target_jobs[j].index, v.target_m));
+                    const point::PointSpec spec =
+                        sweep::resolve(sc, plan, target_jobs[j].protocol, target_jobs[j].index, v.target_m);
+                    target_jobs[j].bare = point::bare_state(spec);
+                    target_jobs[j].result = point::evaluate(spec);
                   },
                   {}, {});
   std::vector<std::vector<std::size_t>> best_index(np);
   std::vector<point::PointResult> best(np);
+  std::vector<gaussian::StandardForm> best_bare(np);
   std::vector<bool> have(np, false);
   for (const TargetJob& job : target_jobs) {
     const std::size_t p = job.protocol;
@@ -110,6 +130,7 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
     if (!have[p] || (usable(r) && (!usable(best[p]) || r.log_negativity > best[p].log_negativity))) {
       best[p] = r;
       best_index[p] = job.index;
+      best_bare[p] = job.bare;
       have[p] = true;
     }
   }
@@ -129,16 +150,13 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
                       const auto figure = static_cast<Figure>(j % 3);
                       const sweep::ProtocolPlan& pp = plan.protocols[p];
                       const sweep::ProtocolTable& table = tables[p];
-                      auto margin = [&](const point::PointResult& r, double d, std::size_t di, bool from_grid) {
+                      // The bare link of the comparisons has the best setting's hardware (the
+                      // grid's /link table holds the first values of swept hardware).
+                      auto margin = [&](const point::PointResult& r, const gaussian::StandardForm& bare) {
                         if (!usable(r)) return -1.0;
                         switch (figure) {
-                          case en_vs_bare:
-                            return r.log_negativity -
-                                   (from_grid ? link.log_negativity[di]
-                                              : gaussian::log_negativity(point::bare_state(source, sc.link.model, d)));
-                          case f_vs_bare:
-                            return r.fidelity - (from_grid ? link.fidelity[di]
-                                                           : gaussian::fidelity(point::bare_state(source, sc.link.model, d)));
+                          case en_vs_bare: return r.log_negativity - gaussian::log_negativity(bare);
+                          case f_vs_bare: return r.fidelity - gaussian::fidelity(bare);
                           case f_vs_half: return r.fidelity - 0.5;
                         }
                         return -1.0;
@@ -149,10 +167,13 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
                         idx[0] = di;
                         std::size_t flat = 0;
                         for (std::size_t a = 0; a < idx.size(); ++a) flat = flat * pp.axes[a].values.size() + idx[a];
-                        values.push_back(table.done[flat] ? margin(table.points[flat], grid[di], di, true) : -1.0);
+                        values.push_back(table.done[flat]
+                                             ? margin(table.points[flat], point::bare_state(sweep::resolve(sc, plan, p, idx)))
+                                             : -1.0);
                       }
                       auto fn = [&](double d) {
-                        return margin(point::evaluate(sweep::resolve(sc, plan, p, best_index[p], d)), d, 0, false);
+                        const point::PointSpec spec = sweep::resolve(sc, plan, p, best_index[p], d);
+                        return margin(point::evaluate(spec), point::bare_state(spec));
                       };
                       crossings[j] = last_downward_crossing(fn, grid, values, tol);
                     },
@@ -168,23 +189,28 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
       if (!table.done[i] || !usable(table.points[i])) ++pv.failed_points;
     const point::PointResult& b = best[p];
     pv.at_target = b;
+    pv.bare_log_negativity = gaussian::log_negativity(best_bare[p]);
+    pv.bare_fidelity = gaussian::fidelity(best_bare[p]);
     for (std::size_t a = 1; a < pp.axes.size(); ++a) pv.best.emplace_back(pp.axes[a].name, pp.axes[a].values[best_index[p][a]]);
     if (sc.output.heralds_wanted && b.heralding_rate_hz > 0.0)
       pv.seconds_for_heralds = *sc.output.heralds_wanted / b.heralding_rate_hz;
-    pv.pays_off_log_negativity = usable(b) && b.log_negativity > v.bare_log_negativity;
-    pv.pays_off_fidelity = usable(b) && b.fidelity > v.bare_fidelity;
+    pv.pays_off_log_negativity = usable(b) && b.log_negativity > pv.bare_log_negativity + gain_floor;
+    pv.pays_off_fidelity = usable(b) && b.fidelity > pv.bare_fidelity + gain_floor;
     if (pp.axes.size() > 1) {
       for (std::size_t a = 1; a < pp.axes.size(); ++a) {
         pv.slice_axes.push_back(pp.axes[a].name);
         pv.slice_shape.push_back(pp.axes[a].values.size());
       }
       for (const TargetJob& job : target_jobs)
-        if (job.protocol == p) pv.slice.push_back(shown(job.result));
+        if (job.protocol == p) {
+          pv.slice.push_back(shown(job.result));
+          pv.slice_bare_log_negativity.push_back(gaussian::log_negativity(job.bare));
+        }
     }
     pv.breakeven_log_negativity = crossings[3 * p + en_vs_bare];
     pv.breakeven_fidelity = crossings[3 * p + f_vs_bare];
     pv.fidelity_half = crossings[3 * p + f_vs_half];
-    pv.summary = summarise(pp, pv, v);
+    pv.summary = summarise(sc.protocols.at(p), pv, v);
   }
   return v;
 }
