@@ -12,7 +12,9 @@ import sys
 import h5py
 import numpy as np
 
-IGNORED = {"created_utc", "ranks", "threads", "tool_version"}
+IGNORED = {"created_utc", "ranks", "threads", "tool_version",
+           # HDF5 dimension-scale bookkeeping (object references; the labels are tested elsewhere)
+           "DIMENSION_LIST", "REFERENCE_LIST", "CLASS", "NAME", "DIMENSION_LABELS"}
 # Words may improve between versions; what they describe (values, units) may not change.
 WORDS = {"description"}
 
