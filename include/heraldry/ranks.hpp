@@ -37,6 +37,15 @@ private:
   bool started_ = false;
 };
 
+/// Whether this build distributes runs over MPI ranks (HERALDRY_WITH_MPI).
+bool built_with_mpi();
+
+/// The number of processes an MPI launcher started this one among, read from the launchers'
+/// environment (Open MPI's OMPI_COMM_WORLD_SIZE, MPICH/Hydra and Intel MPI's PMI_SIZE,
+/// MVAPICH's MV2_COMM_WORLD_SIZE); 1 when none says more. A build without MPI started as several
+/// ranks would run the whole sweep once per rank: the command line refuses that.
+int launcher_ranks();
+
 /// The scenario every rank sweeps: rank 0 calls `load` and sends the text to the other ranks,
 /// which parse it (so the ranks agree even when the file is not visible on every node). Rethrows
 /// load's error on rank 0; returns nullopt on the other ranks in that case (they should exit

@@ -20,7 +20,12 @@ struct Options {
   bool force = false;                 // overwrite an existing complete result file
   std::size_t stop_after_points = 0;  // test hook: stop (as if interrupted) once this many new points are done
   double checkpoint_seconds = 5.0;    // checkpoint period
-  bool progress = false;              // progress line on stderr
+  /// Progress on stderr: `terminal` rewrites one line in place; `lines` prints a plain line
+  /// every `progress_seconds` (for batch logs: points done, rate, time left, the point being
+  /// computed); `none` prints nothing.
+  enum class Progress { none, terminal, lines };
+  Progress progress = Progress::none;
+  double progress_seconds = 10.0;
   std::string version = "0";
 };
 

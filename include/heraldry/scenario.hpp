@@ -163,6 +163,7 @@ std::string file_safe_name(std::string_view name);
 /// [link.antenna] with "line") are refused rather than ignored.
 Scenario parse(std::string_view text, const std::string& file_name);
 /// Reads a file and parses it; an unreadable file is an InputError too (key "<file>", line 0).
+/// "-" reads the scenario from standard input (file name "<stdin>" in messages).
 Scenario load(const std::string& path);
 /// The built-in demo scenario (protocols/demo.toml, compiled in).
 std::string_view demo_text();

@@ -7,7 +7,9 @@
 #include <utility>
 #include <vector>
 
+#include <functional>
 #include <span>
+#include <stdexcept>
 
 #include "heraldry/common.hpp"
 #include "heraldry/crossing.hpp"
@@ -64,7 +66,14 @@ struct Verdict {
 /// the bare link of the same hardware, and refines the crossings between grid points (to 1e-4 of
 /// the grid step), in parallel on `threads` threads (src/verdict/verdict.cpp). A gain below 1e-9
 /// is round-off, not a gain.
+/// `stop`, polled between chunks of evaluations, ends the computation early with Stopped.
 Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span<const sweep::ProtocolTable> tables,
-                int threads = 1);
+                int threads = 1, const std::function<bool()>& stop = {});
+
+/// The verdict was asked to stop (a signal): the grid is complete, the verdict is not.
+class Stopped : public std::runtime_error {
+public:
+  Stopped() : std::runtime_error("the verdict was interrupted") {}
+};
 
 }  // namespace heraldry::verdict

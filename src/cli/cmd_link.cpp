@@ -132,7 +132,7 @@ int cmd_example() {
 int cmd_check(const std::string& path) {
   const scenario::Scenario sc = scenario::load(path);
   const auto& grid = sc.link.distances_m;
-  std::printf("%s: valid scenario \"%s\"\n", path.c_str(), sc.title.c_str());
+  std::printf("%s: valid scenario \"%s\"\n", sc.path.c_str(), sc.title.c_str());
   std::printf("  distances: %zu (%.4g m to %.4g m), target %.4g m\n", grid.size(), grid.front(), grid.back(),
               sc.link.target_m);
   const sweep::Plan plan = sweep::make_plan(sc);

@@ -23,6 +23,16 @@ int run_on_ranks(const RunOptions& options, ranks::Session& session);
 }  // namespace
 
 int cmd_run(const RunOptions& options) {
+  // Started by an MPI launcher as several processes, a build without MPI would run the whole
+  // sweep in each and write the same file: refused (every copy says so, none writes).
+  if (!ranks::built_with_mpi() && ranks::launcher_ranks() > 1) {
+    std::fprintf(stderr,
+                 "heraldry: error: started as %d MPI ranks, but this heraldry was built without MPI: every rank would "
+                 "run the whole sweep and write the same file.\n  Build it with MPI (cmake -DHERALDRY_WITH_MPI=ON; see "
+                 "scripts/cluster/README.md), or run one process.\n",
+                 ranks::launcher_ranks());
+    return 2;
+  }
   // MPI (in a build with HERALDRY_WITH_MPI) lives as long as this object; with one rank, or
   // without MPI, what follows is the plain single-process run.
   ranks::Session session;
@@ -54,7 +64,10 @@ int run_on_ranks(const RunOptions& options, ranks::Session& session) {
   ro.force = options.force;
   ro.stop_after_points = options.stop_after;
   ro.checkpoint_seconds = options.checkpoint_seconds;
-  ro.progress = coordinator && isatty(STDERR_FILENO) != 0;
+  ro.progress = !coordinator ? run::Options::Progress::none
+                : isatty(STDERR_FILENO) != 0 ? run::Options::Progress::terminal
+                                            : run::Options::Progress::lines;
+  ro.progress_seconds = options.progress_seconds;
   ro.version = HERALDRY_VERSION;
   std::signal(SIGINT, on_signal);
   std::signal(SIGTERM, on_signal);

@@ -26,6 +26,7 @@ struct RunOptions {
   bool force = false;
   std::size_t stop_after = 0;
   double checkpoint_seconds = 5.0;  // testing: checkpoint period
+  double progress_seconds = 10.0;   // period of the progress lines when stderr is not a terminal
 };
 
 struct TuneOptions {

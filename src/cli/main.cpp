@@ -19,33 +19,36 @@ int main(int argc, char** argv) {
   std::string scenario;
   auto* example = app.add_subcommand("example", "print the demo scenario, to copy and edit");
   auto* check = app.add_subcommand("check", "validate a scenario and report the cutoff it needs");
-  check->add_option("scenario", scenario, "scenario file (TOML)")->required();
+  check->add_option("scenario", scenario, "scenario file (TOML), or - for standard input")->required();
   auto* link = app.add_subcommand("link", "link budget and Gaussian figures versus distance");
-  link->add_option("scenario", scenario, "scenario file (TOML)")->required();
+  link->add_option("scenario", scenario, "scenario file (TOML), or - for standard input")->required();
 
   cli::RunOptions run_opts;
   auto* run = app.add_subcommand("run", "the main job: sweep, HDF5 results, verdict (default: the built-in demo)");
-  run->add_option("scenario", run_opts.scenario, "scenario file (TOML); without it the built-in demo");
+  run->add_option("scenario", run_opts.scenario, "scenario file (TOML), or - for standard input; without it the built-in demo");
   run->add_option("-o,--output", run_opts.output, "result file (overrides [output] file)");
   run->add_option("-t,--threads", run_opts.threads, "threads (overrides [numerics] threads and OMP_NUM_THREADS)")
-      ->check(CLI::PositiveNumber);
+      ->check(CLI::Range(1, 1024));
   run->add_flag("--force", run_opts.force, "overwrite an existing result file");
   run->add_option("--stop-after", run_opts.stop_after, "stop after this many new points, keeping the checkpoint (testing)")
       ->group("");
   run->add_option("--checkpoint-seconds", run_opts.checkpoint_seconds, "checkpoint period in seconds (testing)")
-      ->check(CLI::NonNegativeNumber)
+      ->check(CLI::Range(0.0, 86400.0))
       ->group("");
+  run->add_option("--progress-seconds", run_opts.progress_seconds,
+                  "seconds between progress lines when stderr is not a terminal (a batch log)")
+      ->check(CLI::Range(0.0, 86400.0));
 
   cli::ProbeOptions probe_opts;
   auto* probe = app.add_subcommand("probe", "every protocol's figures at one distance");
-  probe->add_option("scenario", probe_opts.scenario, "scenario file (TOML)")->required();
+  probe->add_option("scenario", probe_opts.scenario, "scenario file (TOML), or - for standard input")->required();
   probe->add_option("--at", probe_opts.at_m, "distance in metres (default: the scenario's target_m)");
   probe->add_flag("--json", probe_opts.json, "print one JSON object");
   probe->add_option("--set", probe_opts.set, "pin a swept parameter: PROTOCOL:AXIS=VALUE (repeatable)");
 
   cli::TuneOptions tune_opts;
   auto* tune = app.add_subcommand("tune", "optimise a protocol's { tune = [lo, hi] } parameters at one distance");
-  tune->add_option("scenario", tune_opts.scenario, "scenario file (TOML)")->required();
+  tune->add_option("scenario", tune_opts.scenario, "scenario file (TOML), or - for standard input")->required();
   tune->add_option("--protocol", tune_opts.protocol, "the protocol to tune (its name)")->required();
   tune->add_option("--objective", tune_opts.objective, "fidelity, log-negativity or rate (heralding rate x E_N)")
       ->required();

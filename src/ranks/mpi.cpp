@@ -12,12 +12,36 @@
 // A worker's first report is empty (a request); every report gets exactly one tag_work reply.
 // Waits poll with MPI_Iprobe and short sleeps: OpenMPI's blocking receive spins at 100% CPU,
 // which would take the core of a compute thread on rank 0 or of a rank on a shared node.
+#include <algorithm>
+#include <cstdlib>
 #include <stdexcept>
 
 #include "heraldry/common.hpp"
 #include "heraldry/ranks.hpp"
 #include "heraldry/scenario.hpp"
 #include "sweep/executor.hpp"
+
+namespace heraldry::ranks {
+
+bool built_with_mpi() {
+#if HERALDRY_HAVE_MPI
+  return true;
+#else
+  return false;
+#endif
+}
+
+int launcher_ranks() {
+  for (const char* name : {"OMPI_COMM_WORLD_SIZE", "PMI_SIZE", "MV2_COMM_WORLD_SIZE"}) {
+    const char* v = std::getenv(name);
+    if (v == nullptr) continue;
+    const long n = std::strtol(v, nullptr, 10);
+    if (n > 1) return static_cast<int>(std::min(n, 1L << 20));
+  }
+  return 1;
+}
+
+}  // namespace heraldry::ranks
 
 #if HERALDRY_HAVE_MPI
 

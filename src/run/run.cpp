@@ -7,7 +7,10 @@
 #include <cstdio>
 #include <ctime>
 #include <filesystem>
+#include <condition_variable>
 #include <memory>
+#include <mutex>
+#include <thread>
 #include <optional>
 
 #include "heraldry/fock.hpp"
@@ -142,13 +145,21 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
   const std::vector<sweep::Job> jobs = ordered_jobs(sc, plan, data, summary);
   auto last_checkpoint = Clock::now();
   std::size_t computed = 0;
+  std::atomic<std::size_t> computed_now{0};  // `computed`, for the progress thread
+  // The point most recently started (for the progress lines): protocol and flat index.
+  std::atomic<std::size_t> now_protocol{0}, now_flat{0};
   sweep::ExecutorHooks hooks;
-  hooks.evaluate = [&](const sweep::Job& job) { return evaluate_job(sc, plan, job); };
+  hooks.evaluate = [&](const sweep::Job& job) {
+    now_protocol.store(job.first);
+    now_flat.store(job.second);
+    return evaluate_job(sc, plan, job);
+  };
   hooks.store = [&](const sweep::Outcome& o) {
     output::ProtocolTable& t = data.protocols.at(o.job.first);
     t.points.at(o.job.second) = o.result;
     t.done[o.job.second] = 1;
     ++computed;
+    computed_now.store(computed);
   };
   hooks.stop = [&] {
     if (stop_requested.load()) return true;
@@ -160,16 +171,64 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
       output::write_file(partial, sc, plan, data, prov, false);
       last_checkpoint = Clock::now();
     }
-    if (options.progress) {
-      const double el = std::chrono::duration<double>(Clock::now() - t0).count();
-      const double rate = static_cast<double>(computed) / std::max(el, 1e-9);
+    const double el = std::chrono::duration<double>(Clock::now() - t0).count();
+    const double rate = static_cast<double>(computed) / std::max(el, 1e-9);
+    const double left = static_cast<double>(jobs.size() - computed) / std::max(rate, 1e-9);
+    if (options.progress == Options::Progress::terminal) {
       std::fprintf(stderr, "\r  %zu/%zu points, %.3g points/s, %.0f s left   ", summary.resumed_points + computed,
-                   summary.total_points, rate, static_cast<double>(jobs.size() - computed) / std::max(rate, 1e-9));
+                   summary.total_points, rate, left);
       std::fflush(stderr);
     }
   };
-  executor->run(jobs, hooks);
-  if (options.progress) std::fprintf(stderr, "\n");
+  // Batch logs: a plain line every progress_seconds from a thread of its own, so that it comes
+  // on time even while one expensive point holds the sweep (it only reads counters and prints).
+  std::mutex line_mutex;
+  std::condition_variable line_cv;
+  bool sweep_over = false;
+  std::thread lines;
+  if (options.progress == Options::Progress::lines) {
+    lines = std::thread([&] {
+      std::unique_lock<std::mutex> lock(line_mutex);
+      for (;;) {
+        const auto period = std::chrono::duration<double>(std::max(0.05, options.progress_seconds));
+        if (line_cv.wait_for(lock, period, [&] { return sweep_over; })) return;
+        const std::size_t done = computed_now.load();
+        const double el = std::chrono::duration<double>(Clock::now() - t0).count();
+        const double rate = static_cast<double>(done) / std::max(el, 1e-9);
+        const double left = done > 0 ? static_cast<double>(jobs.size() - done) / rate : 0.0;
+        const std::size_t p = now_protocol.load();
+        const double d = plan.protocols[p].axes[0].values[plan.protocols[p].unflatten(now_flat.load())[0]];
+        char eta[48];
+        if (done > 0)
+          std::snprintf(eta, sizeof eta, "about %.0f s left", left);
+        else
+          std::snprintf(eta, sizeof eta, "no estimate yet");
+        std::fprintf(stderr, "heraldry run: %zu/%zu points (%.1f %%) after %.0f s, %.3g points/s, %s; computing '%s' at %.4g m\n",
+                     summary.resumed_points + done, summary.total_points,
+                     100.0 * static_cast<double>(summary.resumed_points + done) /
+                         static_cast<double>(std::max<std::size_t>(1, summary.total_points)),
+                     el, rate, eta, plan.protocols[p].name.c_str(), d);
+        std::fflush(stderr);
+      }
+    });
+  }
+  auto end_lines = [&] {
+    if (!lines.joinable()) return;
+    {
+      std::lock_guard<std::mutex> lock(line_mutex);
+      sweep_over = true;
+    }
+    line_cv.notify_all();
+    lines.join();
+  };
+  try {
+    executor->run(jobs, hooks);
+  } catch (...) {
+    end_lines();
+    throw;
+  }
+  end_lines();
+  if (options.progress == Options::Progress::terminal) std::fprintf(stderr, "\n");
   summary.computed_points = computed;
 
   if (computed < jobs.size()) {
@@ -178,10 +237,21 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
     summary.file = partial;
   } else {
     const auto tv = Clock::now();
-    data.verdict = verdict::compute(sc, plan, data.protocols, threads);
-    summary.verdict_seconds = std::chrono::duration<double>(Clock::now() - tv).count();
-    output::write_file(summary.file, sc, plan, data, prov, true);
-    fs::remove(partial, ec);
+    if (options.progress == Options::Progress::lines) {
+      std::fprintf(stderr, "heraldry run: the grid is done; computing the verdict\n");
+      std::fflush(stderr);
+    }
+    try {
+      data.verdict = verdict::compute(sc, plan, data.protocols, threads, [] { return stop_requested.load(); });
+      summary.verdict_seconds = std::chrono::duration<double>(Clock::now() - tv).count();
+      output::write_file(summary.file, sc, plan, data, prov, true);
+      fs::remove(partial, ec);
+    } catch (const verdict::Stopped&) {
+      // Interrupted in the verdict: the complete grid is kept; a resumed run computes only the verdict.
+      summary.interrupted = true;
+      output::write_file(partial, sc, plan, data, prov, false);
+      summary.file = partial;
+    }
   }
   for (const auto& t : data.protocols)
     for (std::size_t i = 0; i < t.points.size(); ++i)

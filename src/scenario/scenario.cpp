@@ -7,6 +7,7 @@
 #include <cmath>
 #include <filesystem>
 #include <fstream>
+#include <iostream>
 #include <iterator>
 #include <memory>
 #include <sstream>
@@ -698,9 +699,11 @@ Numerics read_numerics(const Table& root) {
       t->fail("cutoff", expected);
     }
   }
-  n.tolerance = t->number_or("tolerance", Bounds{0.0, 1e-2, true, false}, n.tolerance);
-  n.threads = static_cast<int>(t->integer("threads", 0, INT_MAX).value_or(n.threads));
-  n.max_memory_mb = t->number_or("max_memory_mb", positive, n.max_memory_mb);
+  // Below 1e-20 a tolerance says nothing double precision can honour (the figures carry ~1e-12
+  // of round-off; tolerance^2 P would underflow).
+  n.tolerance = t->number_or("tolerance", Bounds::closed(1e-20, 1e-2), n.tolerance);
+  n.threads = static_cast<int>(t->integer("threads", 0, 1024).value_or(n.threads));
+  n.max_memory_mb = t->number_or("max_memory_mb", {0.0, 1.0e7, true, false}, n.max_memory_mb);
   n.max_cutoff = static_cast<int>(t->integer("max_cutoff", 1, max_cutoff).value_or(n.max_cutoff));
   return n;
 }
@@ -740,6 +743,12 @@ Scenario parse(std::string_view text, const std::string& file_name) {
 Scenario load(const std::string& path) {
   std::error_code ec;
   std::ostringstream text;
+  if (path == "-") {
+    // "-": the scenario comes on standard input (a pipe, a here-document).
+    text << std::cin.rdbuf();
+    if (std::cin.bad()) detail::raise("<stdin>", 0, "<file>", "", "a scenario on standard input");
+    return parse(text.str(), "<stdin>");
+  }
   bool ok = std::filesystem::is_regular_file(path, ec);
   if (ok) {
     std::ifstream in(path, std::ios::binary);

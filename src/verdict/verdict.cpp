@@ -77,7 +77,8 @@ std::string summarise(const scenario::Protocol& proto, const ProtocolVerdict& pv
 }  // namespace
 
 Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span<const sweep::ProtocolTable> tables,
-                int threads) {
+                int threads, const std::function<bool()>& stop) {
+  auto stopped = [&] { return stop && stop(); };
   Verdict v;
   const auto& grid = sc.link.distances_m;
   const point::Source source = sweep::source_of(sc);
@@ -119,7 +120,8 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
                     target_jobs[j].bare = point::bare_state(spec);
                     target_jobs[j].result = point::evaluate(spec);
                   },
-                  {}, {});
+                  stop, {});
+  if (stopped()) throw Stopped();
   std::vector<std::vector<std::size_t>> best_index(np);
   std::vector<point::PointResult> best(np);
   std::vector<gaussian::StandardForm> best_bare(np);
@@ -177,7 +179,8 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
                       };
                       crossings[j] = last_downward_crossing(fn, grid, values, tol);
                     },
-                    {}, {});
+                    stop, {});
+    if (stopped()) throw Stopped();
   }
 
   for (std::size_t p = 0; p < np; ++p) {
