@@ -121,3 +121,25 @@ TEST_CASE("a missing scenario file is a clear input error with exit code 2") {
   CHECK(o.code == 2);
   CHECK(o.output.find("/nonexistent/scenario.toml") != std::string::npos);
 }
+
+TEST_CASE("with stderr redirected a run prints plain progress lines with the rate, the time left and the point") {
+  // popen gives the tool a pipe, not a terminal: the batch form.
+  const fs::path dir = fs::temp_directory_path() / ("heraldry_cli_progress_" + std::to_string(::getpid()));
+  fs::create_directories(dir);
+  const Outcome o = run_tool("run \"" + source("protocols/cryo_line.toml") + "\" -o \"" + (dir / "r.h5").string() +
+                             "\" -t 1 --progress-seconds 0.05");
+  CAPTURE(o.output);
+  CHECK(o.code == 0);
+  CHECK(o.output.find(" points (") != std::string::npos);
+  CHECK(o.output.find("points/s") != std::string::npos);
+  CHECK(o.output.find("computing '") != std::string::npos);
+  CHECK(o.output.find("the grid is done; computing the verdict") != std::string::npos);
+  CHECK(o.output.find('\r') == std::string::npos);  // no terminal line rewriting in a log
+  fs::remove_all(dir);
+}
+
+TEST_CASE("a scenario on standard input is read when the file name is -") {
+  const Outcome o = run_tool("check - < \"" + source("protocols/demo.toml") + "\"");
+  CHECK(o.code == 0);
+  CHECK(o.output.find("<stdin>: valid scenario") != std::string::npos);
+}
