@@ -13,6 +13,8 @@ packages=(
   libcli11-dev           # command line
   python3-h5py python3-matplotlib python3-numpy   # plots (scripts/plot.py)
   python3-mpmath         # reference-value generators (scripts/reference)
+  pybind11-dev python3-dev python3-pybind11   # the Python module (python/)
+  python3-pytest         # the Python module's tests
 )
 for arg in "$@"; do
   case "$arg" in

@@ -4,6 +4,7 @@
 #pragma once
 
 #include <cstddef>
+#include <functional>
 #include <optional>
 #include <span>
 #include <string>
@@ -49,7 +50,19 @@ struct Options {
   std::optional<double> at_m;                         // default: [link] target_m
   std::optional<double> min_rate_hz;                  // feasible: heralding rate >= this
   std::optional<double> max_false_herald_fraction;    // feasible: false heralds <= this
+  int threads = 1;                                    // threads for the independent evaluations
+  bool exact_search = false;                          // every evaluation at the scenario's tolerance (benchmarks)
+  /// Called after every evaluation (from the calling thread or a worker, one at a time): the
+  /// evaluations done, the expected total (an estimate) and the seconds so far.
+  std::function<void(std::size_t done, std::size_t expected, double seconds)> progress;
 };
+
+/// The truncation tolerance of the search: the scenario's, but not below 1e-6. The figures of
+/// a search point then carry up to ~1e-6 of truncation error, far below the objective's changes
+/// that steer the search, at a fraction of the cost (the cutoff grows like log(1/tolerance) and
+/// the cost like its fourth power). The optimum and the figures reported are evaluated again at
+/// the scenario's own tolerance.
+double search_tolerance(double scenario_tolerance);
 
 /// The figures of one evaluated setting: the point's result, whether it is feasible, and the
 /// objective there.
@@ -61,7 +74,7 @@ struct Figures : point::PointResult {
 };
 
 /// The objective's change at -5 % and +5 % of one parameter (clamped to its range), the others
-/// at the optimum.
+/// at the optimum (evaluated at the search tolerance).
 struct Sensitivity {
   double minus_value = 0.0, minus_objective = 0.0;   // objective -inf: infeasible there
   double plus_value = 0.0, plus_objective = 0.0;
@@ -92,11 +105,14 @@ std::size_t find_protocol(const scenario::Scenario& sc, std::string_view name);
 std::size_t check(const scenario::Scenario& sc, const Options& options);
 
 /// Evaluates protocol `protocol` at distance d with the knobs set to `values` (one per knob;
-/// swept parameters that are not tuned take their first value). Pure apart from the work.
+/// swept parameters that are not tuned take their first value), at the scenario's tolerance.
+/// Pure apart from the work.
 Figures evaluate_at(const scenario::Scenario& sc, const Options& options, std::size_t protocol,
                     double distance_m, std::span<const Knob> knobs, std::span<const double> values);
 
-/// The optimiser. One knob: a 9-point scan of the range, then Brent's method
+/// The optimiser. Every search evaluation uses search_tolerance(); the grid's points are
+/// evaluated in parallel on options.threads threads. One knob: a 9-point scan of the range,
+/// then Brent's method
 /// (boost::math::tools::brent_find_minima) in the bracket around the best scan point. Two or
 /// three knobs: the best point of a 5 x 5 (or 3 x 3 x 3) grid, then cyclic coordinate search
 /// with Brent line searches (derivative-free, in the manner of Powell's method without

@@ -1,6 +1,7 @@
 // `heraldry tune SCENARIO --protocol NAME --objective OBJ [--at METRES] [--min-rate-hz X]
 // [--max-false-herald-fraction F] [--json]`: the optimum of a protocol's `{ tune = [lo, hi] }`
 // parameters at one distance, its figures, the bare link there, and the sensitivity at +-5 %.
+#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <string>
@@ -8,6 +9,7 @@
 #include "cli/commands.hpp"
 #include "cli/json.hpp"
 #include "heraldry/scenario.hpp"
+#include "heraldry/sweep.hpp"
 #include "heraldry/tune.hpp"
 
 namespace heraldry::cli {
@@ -101,6 +103,19 @@ int cmd_tune(const TuneOptions& options) {
   o.at_m = options.at_m;
   o.min_rate_hz = options.min_rate_hz;
   o.max_false_herald_fraction = options.max_false_herald_fraction;
+  o.threads = sweep::thread_count(options.threads > 0 ? options.threads : sc.numerics.threads);
+  o.exact_search = options.exact_search;
+  // Progress on stderr: at most one line a second, with the estimate of what is left.
+  auto last = std::chrono::steady_clock::now() - std::chrono::seconds(10);
+  o.progress = [&](std::size_t done, std::size_t expected, double seconds) {
+    const auto now = std::chrono::steady_clock::now();
+    if (done < 3 || (now - last < std::chrono::seconds(1) && done < expected)) return;
+    last = now;
+    const double each = seconds / static_cast<double>(done);
+    std::fprintf(stderr, "heraldry tune: %zu of about %zu evaluations, %.3g s each, about %.0f s left\n", done,
+                 expected, each, each * static_cast<double>(expected > done ? expected - done : 0));
+    std::fflush(stderr);
+  };
   const tune::Result r = tune::run(sc, o);
   if (options.json)
     std::fputs(json_output(r).c_str(), stdout);

@@ -36,6 +36,8 @@ struct TuneOptions {
   std::optional<double> at_m;
   std::optional<double> min_rate_hz;
   std::optional<double> max_false_herald_fraction;
+  int threads = 0;  // 0: [numerics] threads, then OMP_NUM_THREADS or all cores
+  bool exact_search = false;  // benchmarks: every evaluation at the scenario's tolerance
   bool json = false;
 };
 

@@ -56,7 +56,10 @@ int main(int argc, char** argv) {
   tune->add_option("--min-rate-hz", tune_opts.min_rate_hz, "only settings heralding at least this rate");
   tune->add_option("--max-false-herald-fraction", tune_opts.max_false_herald_fraction,
                    "only settings with at most this false-herald fraction");
+  tune->add_option("-t,--threads", tune_opts.threads, "threads for independent evaluations")->check(CLI::Range(1, 1024));
   tune->add_flag("--json", tune_opts.json, "print one JSON object");
+  tune->add_flag("--exact-search", tune_opts.exact_search, "every evaluation at the scenario's tolerance (benchmarks)")
+      ->group("");
 
   try {
     app.parse(argc, argv);

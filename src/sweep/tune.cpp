@@ -3,7 +3,10 @@
 #include "heraldry/tune.hpp"
 
 #include <algorithm>
+#include <atomic>
+#include <chrono>
 #include <cmath>
+#include <mutex>
 #include <cstdio>
 #include <limits>
 
@@ -49,27 +52,47 @@ scenario::Scenario pinned(const scenario::Scenario& sc, std::size_t p) {
   return w;
 }
 
-// Evaluates settings of the knobs on a pinned scenario; counts the evaluations.
+// Evaluates settings of the knobs on a pinned scenario; counts the evaluations. Thread-safe:
+// each call works on its own copy of the pinned scenario.
 class Evaluator {
 public:
   Evaluator(const scenario::Scenario& sc, const Options& options, std::size_t protocol, double distance_m,
             std::span<const Knob> knobs)
-      : w_(pinned(sc, protocol)), options_(options), d_(distance_m), knobs_(knobs.begin(), knobs.end()) {}
+      : w_(pinned(sc, protocol)), options_(options), d_(distance_m), knobs_(knobs.begin(), knobs.end()),
+        t0_(std::chrono::steady_clock::now()) {}
 
-  Figures operator()(std::span<const double> values) {
+  /// At the search tolerance.
+  Figures operator()(std::span<const double> values) const {
+    return evaluate(values, options_.exact_search ? w_.numerics.tolerance : search_tolerance(w_.numerics.tolerance));
+  }
+  /// At the scenario's own tolerance.
+  Figures exact(std::span<const double> values) const { return evaluate(values, w_.numerics.tolerance); }
+
+  std::size_t count() const { return count_.load(); }
+  void expect(std::size_t n) { expected_ = n; }
+
+private:
+  Figures evaluate(std::span<const double> values, double tolerance) const {
     if (values.size() != knobs_.size()) throw std::invalid_argument("tune: one value per tunable parameter");
+    scenario::Scenario w = w_;
     for (std::size_t i = 0; i < knobs_.size(); ++i) {
       const Knob& k = knobs_[i];
       if (k.step < 0)
-        w_.source.squeezing_r = squeezing_parameter_from_db(values[i]);
+        w.source.squeezing_r = squeezing_parameter_from_db(values[i]);
       else
-        w_.protocols[0].steps[static_cast<std::size_t>(k.step)].params[static_cast<std::size_t>(k.param)].values = {
+        w.protocols[0].steps[static_cast<std::size_t>(k.step)].params[static_cast<std::size_t>(k.param)].values = {
             values[i]};
     }
-    const sweep::Plan plan = sweep::make_plan(w_);
+    w.numerics.tolerance = tolerance;
+    const sweep::Plan plan = sweep::make_plan(w);
     const std::vector<std::size_t> index(plan.protocols[0].axes.size(), 0);
-    const point::PointResult r = point::evaluate(sweep::resolve(w_, plan, 0, index, d_));
-    ++count_;
+    const point::PointResult r = point::evaluate(sweep::resolve(w, plan, 0, index, d_));
+    const std::size_t done = ++count_;
+    if (options_.progress) {
+      const std::lock_guard<std::mutex> lock(progress_mutex_);
+      options_.progress(done, std::max(expected_, done),
+                        std::chrono::duration<double>(std::chrono::steady_clock::now() - t0_).count());
+    }
 
     Figures f;
     static_cast<point::PointResult&>(f) = r;
@@ -87,15 +110,14 @@ public:
     return f;
   }
 
-  std::size_t count() const { return count_; }
-  const scenario::Scenario& pinned_scenario() const { return w_; }
-
-private:
   scenario::Scenario w_;
   Options options_;
   double d_;
   std::vector<Knob> knobs_;
-  std::size_t count_ = 0;
+  std::chrono::steady_clock::time_point t0_;
+  std::size_t expected_ = 0;
+  mutable std::atomic<std::size_t> count_{0};
+  mutable std::mutex progress_mutex_;
 };
 
 // The best point found so far.
@@ -112,7 +134,7 @@ constexpr int brent_bits = 20;
 
 // Maximises along coordinate i within [a, b] from `best` (whose value is kept if Brent's
 // candidate is not better).
-void line_search(Evaluator& eval, Point& best, std::size_t i, double a, double b) {
+void line_search(const Evaluator& eval, Point& best, std::size_t i, double a, double b) {
   if (!(b > a)) return;
   std::vector<double> x = best.x;
   Figures last;
@@ -139,18 +161,31 @@ void line_search(Evaluator& eval, Point& best, std::size_t i, double a, double b
   }
 }
 
-Point optimise_one(Evaluator& eval, const Knob& k) {
+// Evaluates the points in parallel (independent evaluations, each its own slot).
+std::vector<Figures> evaluate_all(const Evaluator& eval, const std::vector<std::vector<double>>& xs, int threads) {
+  std::vector<Figures> out(xs.size());
+  std::vector<std::size_t> todo(xs.size());
+  for (std::size_t j = 0; j < todo.size(); ++j) todo[j] = j;
+  sweep::dispatch(todo, threads, [&](std::size_t j) { out[j] = eval(xs[j]); }, {}, {});
+  return out;
+}
+
+Point optimise_one(const Evaluator& eval, const Knob& k, int threads) {
   constexpr int scan = 9;
   Point best{{k.lo}, {}};
   best.f.objective = minus_infinity;
   int at = -1;
   std::vector<double> xs(scan);
+  std::vector<std::vector<double>> points;
   for (int j = 0; j < scan; ++j) {
     xs[j] = j + 1 == scan ? k.hi : k.lo + (k.hi - k.lo) * j / (scan - 1);
-    const std::vector<double> x{xs[j]};
-    const Figures f = eval(x);
+    points.push_back({xs[j]});
+  }
+  const std::vector<Figures> fs = evaluate_all(eval, points, threads);
+  for (int j = 0; j < scan; ++j) {
+    const Figures& f = fs[static_cast<std::size_t>(j)];
     if (f.feasible && f.objective > best.f.objective) {
-      best = {x, f};
+      best = {points[static_cast<std::size_t>(j)], f};
       at = j;
     }
   }
@@ -159,13 +194,14 @@ Point optimise_one(Evaluator& eval, const Knob& k) {
   return best;
 }
 
-Point optimise_many(Evaluator& eval, std::span<const Knob> knobs) {
+Point optimise_many(const Evaluator& eval, std::span<const Knob> knobs, int threads) {
   const std::size_t n = knobs.size();
   const std::size_t m = n == 3 ? 3 : 5;
   std::size_t total = 1;
   for (std::size_t i = 0; i < n; ++i) total *= m;
   Point best{std::vector<double>(n), {}};
   best.f.objective = minus_infinity;
+  std::vector<std::vector<double>> grid;
   for (std::size_t flat = 0; flat < total; ++flat) {
     std::vector<double> x(n);
     std::size_t rest = flat;
@@ -174,9 +210,11 @@ Point optimise_many(Evaluator& eval, std::span<const Knob> knobs) {
       rest /= m;
       x[i] = j + 1 == m ? knobs[i].hi : knobs[i].lo + (knobs[i].hi - knobs[i].lo) * static_cast<double>(j) / static_cast<double>(m - 1);
     }
-    const Figures f = eval(x);
-    if (f.feasible && f.objective > best.f.objective) best = {x, f};
+    grid.push_back(std::move(x));
   }
+  const std::vector<Figures> fs = evaluate_all(eval, grid, threads);
+  for (std::size_t flat = 0; flat < total; ++flat)
+    if (fs[flat].feasible && fs[flat].objective > best.f.objective) best = {grid[flat], fs[flat]};
   if (!best.f.feasible) return best;
 
   // Cyclic coordinate search: each line search spans +-h around the current value; a minimum
@@ -205,6 +243,8 @@ Point optimise_many(Evaluator& eval, std::span<const Knob> knobs) {
 }
 
 }  // namespace
+
+double search_tolerance(double scenario_tolerance) { return std::max(scenario_tolerance, 1e-6); }
 
 const char* to_string(Objective objective) {
   switch (objective) {
@@ -300,7 +340,7 @@ std::size_t check(const scenario::Scenario& sc, const Options& options) {
 Figures evaluate_at(const scenario::Scenario& sc, const Options& options, std::size_t protocol, double distance_m,
                     std::span<const Knob> knobs, std::span<const double> values) {
   Evaluator eval(sc, options, protocol, distance_m, knobs);
-  return eval(values);
+  return eval.exact(values);
 }
 
 Result run(const scenario::Scenario& sc, const Options& options) {
@@ -312,7 +352,15 @@ Result run(const scenario::Scenario& sc, const Options& options) {
   res.knobs = knobs(sc, p);
 
   Evaluator eval(sc, options, p, res.distance_m, res.knobs);
-  const Point best = res.knobs.size() == 1 ? optimise_one(eval, res.knobs[0]) : optimise_many(eval, res.knobs);
+  // Expected evaluations (for the progress estimate): the first scan or grid, about ten per
+  // line search, two sweeps, the sensitivity and the final evaluation.
+  const std::size_t nk = res.knobs.size();
+  const std::size_t first = nk == 1 ? 9 : nk == 2 ? 25 : 27;
+  eval.expect(first + (nk == 1 ? 12 : 2 * 10 * nk) + 2 * nk + 1);
+  const int threads = std::max(1, options.threads);
+  Point best = nk == 1 ? optimise_one(eval, res.knobs[0], threads) : optimise_many(eval, res.knobs, threads);
+  // The optimum's figures at the scenario's own tolerance.
+  if (best.f.feasible) best.f = eval.exact(best.x);
   res.feasible = best.f.feasible;
   res.best = best.x;
   res.at_best = best.f;

@@ -15,6 +15,22 @@ import h5py
 import numpy as np
 
 IGNORED_ATTRIBUTES = {"created_utc", "ranks", "threads"}
+# Dimension-scale bookkeeping holds HDF5 object references, which compare by address in the file,
+# not by meaning; they are compared by the names they resolve to instead.
+REFERENCE_ATTRIBUTES = {"DIMENSION_LIST", "REFERENCE_LIST"}
+
+
+def resolved(f, value):
+    """Names the object references in a dimension-scale attribute point to."""
+    names = []
+    for item in np.asarray(value, dtype=object).ravel():
+        if isinstance(item, np.void) or isinstance(item, tuple):
+            names.append((f[item[0]].name, int(item[1])))
+        elif isinstance(item, np.ndarray):
+            names.append(tuple(f[r].name for r in item.ravel()))
+        else:
+            names.append(f[item].name)
+    return sorted(names, key=repr)
 
 
 def attributes(obj):
@@ -49,6 +65,9 @@ def compare(a, b):
         for key in sorted(set(aa) | set(ab)):
             if key not in aa or key not in ab:
                 problems.append(f"{name}@{key}: attribute in one file only")
+            elif key in REFERENCE_ATTRIBUTES:
+                if resolved(a, aa[key]) != resolved(b, ab[key]):
+                    problems.append(f"{name}@{key}: dimension scales differ")
             elif not same(aa[key], ab[key]):
                 problems.append(f"{name}@{key}: {aa[key]!r} != {ab[key]!r}")
     return problems, len(items)
