@@ -83,8 +83,33 @@ enum class Status {
   truncation_budget_missed = 1,  ///< the truncation loss exceeds the tolerance at the allowed cutoff
   herald_below_roundoff = 2,     ///< success probability too small to be resolved in double precision
   not_computed = 3,              ///< the point has not been evaluated (yet)
-  invalid_result = 4             ///< a guard caught a probability or measure outside its range
+  invalid_result = 4,            ///< a guard caught a probability or measure outside its range
+  separable_input = 5            ///< exact result: the state entering the heralded steps is separable, so
+                                 ///< N = E_N = 0 whatever the local steps do (P and F still computed)
 };
+
+/// Whether a status carries figures one may quote: ok, or the exact separable result.
+inline bool has_figures(Status s) { return s == Status::ok || s == Status::separable_input; }
+
+/// How a point's figures were computed (the cheapest exact path for it).
+enum class Method {
+  none = 0,            ///< not evaluated
+  covariance = 1,      ///< Gaussian steps only: covariance-matrix figures, no Fock state
+  photon_number = 2,   ///< separable input: P from the joint photon-number distribution
+  gaussian_sum = 3,    ///< threshold-counter heralding as a signed sum of Gaussian terms (no cutoff)
+  fock = 4             ///< truncated Fock space with the truncation ledger
+};
+
+inline const char* to_string(Method m) {
+  switch (m) {
+    case Method::none: return "none";
+    case Method::covariance: return "covariance matrix";
+    case Method::photon_number: return "photon-number distribution";
+    case Method::gaussian_sum: return "Gaussian sum";
+    case Method::fock: return "Fock space";
+  }
+  return "unknown";
+}
 
 inline const char* to_string(Status s) {
   switch (s) {
@@ -93,6 +118,7 @@ inline const char* to_string(Status s) {
     case Status::herald_below_roundoff: return "herald probability below round-off";
     case Status::not_computed: return "not computed";
     case Status::invalid_result: return "invalid result";
+    case Status::separable_input: return "separable input";
   }
   return "unknown";
 }

@@ -58,6 +58,7 @@ struct PointSpec {
 
 struct PointResult {
   Status status = Status::not_computed;
+  Method method = Method::none;          // the path the figures were computed on
   double success_probability = 0.0;      // Tr of the heralded, unnormalised state
   double negativity = 0.0;
   double log_negativity = 0.0;

@@ -34,6 +34,7 @@ constexpr bool is_integer() {
 }
 
 const char* status_label(double v) { return to_string(static_cast<Status>(static_cast<int>(v))); }
+const char* method_label(double v) { return to_string(static_cast<Method>(static_cast<int>(v))); }
 
 #define HERALDRY_FIELD(member, units, description, figure) \
   Field { #member, units, description, is_integer<&PointResult::member>(), figure, &get<&PointResult::member>, &set<&PointResult::member>, nullptr }
@@ -54,8 +55,13 @@ const std::array fields{
     HERALDRY_FIELD(cutoff, "1", "per-mode photon-number cutoff of the computation", false),
     HERALDRY_FIELD(cutoff_needed, "1", "per-mode cutoff the tolerance needs (an estimate when it was not reached)",
                    false),
-    Field{"status", "1", "0 ok, 1 truncation budget missed, 2 herald below round-off, 3 not computed, 4 invalid", true,
-          false, &get<&PointResult::status>, &set<&PointResult::status>, &status_label},
+    Field{"status", "1",
+          "0 ok, 1 truncation budget missed, 2 herald below round-off, 3 not computed, 4 invalid, 5 separable input "
+          "(exact: N = E_N = 0)",
+          true, false, &get<&PointResult::status>, &set<&PointResult::status>, &status_label},
+    Field{"method", "1",
+          "0 none, 1 covariance matrix, 2 photon-number distribution, 3 Gaussian sum, 4 Fock space", true, false,
+          &get<&PointResult::method>, &set<&PointResult::method>, &method_label},
 };
 
 #undef HERALDRY_FIELD
