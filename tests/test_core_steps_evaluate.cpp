@@ -136,13 +136,19 @@ TEST_CASE("dark counts set a floor: at T = 1 the herald probability is p one-sid
   CHECK(near.false_herald_fraction > 0.1);
 }
 
-TEST_CASE("counters with zero efficiency herald only dark counts: the false-herald fraction is one") {
+TEST_CASE("counters with zero efficiency herald only dark counts: false when a counter received no photon") {
+  // The heralds ignore the photons, so the false fraction is the probability that a tap sent no
+  // photon to its counter: with n photons in each mode of a TMSV (p_n = (1 - l^2) l^{2n}),
+  // P(k_a = 0 or k_b = 0) = 2 E[T^n] - E[T^{2n}], E[x^n] = (1 - l^2) / (1 - l^2 x) (derived
+  // closed form).
   PointSpec p = tmsv_point(0.4);
   p.counters = {{CounterKind::threshold, 0.0, 2e-3, 1e-6, 0.0}, {CounterKind::resolving, 0.0, 0.01, 1e-6, 0.0}};
   p.steps = {link_step(), tap(Mode::A, 0.9, 0), tap(Mode::B, 0.9, 1)};
   const PointResult r = evaluate(p);
   REQUIRE(r.status == Status::ok);
-  CHECK(r.false_herald_fraction == doctest::Approx(1.0).epsilon(1e-12));
+  const double l2 = std::pow(std::tanh(0.4), 2);
+  auto moment = [&](double x) { return (1.0 - l2) / (1.0 - l2 * x); };
+  CHECK(r.false_herald_fraction == doctest::Approx(2.0 * moment(0.9) - moment(0.81)).epsilon(1e-9));
   // P = p * nu e^{-nu} (closed form: the counters ignore the photons)
   CHECK(r.success_probability == doctest::Approx(2e-3 * 0.01 * std::exp(-0.01)).epsilon(1e-10));
 }
@@ -227,6 +233,8 @@ TEST_CASE("inconsistent points are input errors") {
   p.steps.push_back(tap(Mode::A, 0.9, 3));  // no such counter
   CHECK_THROWS_AS(evaluate(p), InputError);
   p = tmsv_point(0.5);
+  p.counters = {{CounterKind::threshold, 0.5, 0.0, 1e-6, 0.0}};
+  p.steps.push_back(tap(Mode::A, 0.9, 0));  // a heralded step: a Fock state is built
   p.numerics.cutoff = 200;
   p.numerics.max_memory_bytes = 1e6;  // a fixed cutoff that cannot fit
   CHECK_THROWS_AS(evaluate(p), InputError);

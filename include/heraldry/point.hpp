@@ -6,8 +6,10 @@
 // Physics only: no TOML, HDF5, MPI or OpenMP here.
 #pragma once
 
+#include <atomic>
 #include <optional>
 #include <span>
+#include <stdexcept>
 #include <string_view>
 #include <vector>
 
@@ -44,6 +46,14 @@ struct Numerics {
   double tolerance = 1e-10;                // truncation budget (relative, on the heralded state)
   double max_memory_bytes = 4.0 * 1024 * 1024 * 1024;  // per state, for the auto cutoff
   int max_cutoff = 160;                    // the auto cutoff never goes above this (time bound)
+  /// Polled during the evaluation (between steps, cutoff rounds and rows of long sums): when
+  /// set, evaluate throws Cancelled. Null: never cancelled.
+  const std::atomic<bool>* cancel = nullptr;
+};
+
+/// Thrown by evaluate when Numerics::cancel is set: the point has no result.
+struct Cancelled : std::runtime_error {
+  Cancelled() : std::runtime_error("heraldry::point::evaluate: cancelled") {}
 };
 
 /// Everything one evaluation needs, resolved (SI units, no ranges).
@@ -75,6 +85,9 @@ struct PointResult {
   double amplifier_cut_fraction = 0.0;   // largest input weight above N cut by an amplify step
   int cutoff = 0;                        // the cutoff the figures were computed at
   int cutoff_needed = 0;                 // the cutoff the tolerance needs (estimate if missed)
+  /// 1 when `fidelity` holds the bound 1/2 of a separable resource (Braunstein, Fuchs & Kimble,
+  /// J. Mod. Opt. 47, 267 (2000)) rather than a computed value (photon-number path).
+  int fidelity_bound = 0;
 };
 
 /// Evaluates one point. Leading Gaussian steps (link, loss) act on the covariance matrix; the
@@ -134,6 +147,12 @@ gaussian::StandardForm bare_state(const PointSpec& spec);
 /// The bare link: the source state through the link's channels (Gaussian, exact).
 gaussian::StandardForm bare_state(const Source& source, const link::LinkBudget& budget);
 gaussian::StandardForm bare_state(const Source& source, const link::LinkModel& model, double distance_m);
+
+/// The Fock cutoff the bare link's state `form` needs for the tolerance (the Gaussian estimate,
+/// fock::auto_cutoff_gaussian), searched no further than numerics.max_cutoff + 1 (returned when
+/// the tolerance needs more: the points will be flagged) or the memory allowed; nullopt when the
+/// state is separable (heralded steps on it take the exact paths, no Fock state is built).
+std::optional<int> bare_cutoff_estimate(const gaussian::StandardForm& form, const Numerics& numerics);
 
 /// Signed log-negativity -log2 nu~_- of the bare link (negative when separable): smooth through
 /// the threshold, so root finding can refine where E_N vanishes.

@@ -38,11 +38,12 @@ struct CounterModel {
 };
 
 /// Which part of a counter's response a herald weight keeps.
-/// full: the probability of the reading. genuine: the part in which every count comes from a
-/// detected photon (threshold click: at least one photon detected; resolving j counts: j
-/// detected photons and no dark count). A silent counter (no click, zero counts) keeps its full
-/// weight. Running a protocol with genuine weights gives the false-herald fraction
-/// 1 - P_genuine / P.
+/// full: the probability of the reading. genuine: the part in which the counter received at
+/// least as many photons as the reading claims (threshold click: k >= 1 photons reached the
+/// counter; resolving j counts: k >= j), i.e. the heralded state underwent the photon loss (or
+/// gain) the reading announces, whatever misses and dark counts did to the count itself. A
+/// silent counter (no click, zero counts) keeps its full weight. Running a protocol with genuine
+/// weights gives the false-herald fraction 1 - P_genuine / P (docs/physics.md §4.4).
 enum class Weighting { full, genuine };
 
 /// Per-gate dark probability from a dark-count rate: p = 1 - exp(-R t) (Poisson arrivals).
@@ -175,6 +176,14 @@ struct Channels {
   std::optional<link::Channel> a, b;
 };
 
+/// A heralded step written as a Gaussian unitary on (the mode, a vacuum ancilla) whose ancilla
+/// a threshold counter then reads: the step's map is the ancilla traced with the effect of that
+/// reading, a signed sum of Gaussian operators (docs/physics.md §10.2).
+struct GaussianDilation {
+  Eigen::Matrix4d symplectic;  // on (x, p of the mode; x, p of the ancilla), vacuum variance 1
+  int reading = 1;             // 1: heralded on a click, 0: on no click
+};
+
 /// A kind of step. Gaussian kinds (link, loss) act as thermal-loss channels, on the covariance
 /// matrix while the state is Gaussian and by their Kraus sums once it is in Fock space (the
 /// evaluator does both from `channels`); heralded kinds give their heralding map for each engine.
@@ -193,6 +202,14 @@ struct StepType {
   /// Heralded kinds: apply the step to a Fock state (both engines).
   void (*apply_sector)(fock::SectorState&, const StepSpec&, StepContext&) = nullptr;
   void (*apply_dense)(fock::DenseState&, const StepSpec&, StepContext&) = nullptr;
+  /// Heralded kinds (all are phase-covariant): the diagonal of the step's effect
+  /// sum_k K_k^dagger K_k on photon numbers n = 0..max_photons, i.e. the probability that the
+  /// step heralds on |n>, for the context's counter and weighting, with no cutoff (exact to
+  /// ~1e-18 absolute). Null: the kind has no such form.
+  std::vector<double> (*effect)(const StepSpec&, const StepContext&, int max_photons) = nullptr;
+  /// Heralded kinds with a Gaussian dilation (the counter must be a threshold counter for the
+  /// map to be a sum of Gaussian terms): the dilation, or nullopt for this spec and counter.
+  std::optional<GaussianDilation> (*dilation)(const StepSpec&, const CounterModel&) = nullptr;
 
   /// Index of parameter `key` in `params` (-1 if none).
   int param_index(std::string_view key) const;

@@ -149,24 +149,28 @@ int cmd_check(const std::string& path) {
   const point::Numerics numerics = sweep::numerics_of(sc);
   const fock::Engine engine = numerics.engine;
   const double tol = numerics.tolerance;
-  const double max_bytes = numerics.max_memory_bytes;
   const point::Source source = sweep::source_of(sc);
   int lo = 0, hi = 0;
   double at = grid.front();
+  std::size_t separable = 0;
   for (double d : grid) {
-    int n = 0;
-    try {
-      n = fock::auto_cutoff_gaussian(point::bare_state(source, sc.link.model, d), tol * tol, engine, max_bytes);
-    } catch (const fock::CutoffError& e) {
-      throw InputError(path, 0, "numerics.max_memory_mb", std::to_string(sc.numerics.max_memory_mb),
-                       "room for the states the run needs", std::string(e.what()) + " at " + std::to_string(d) + " m");
+    const std::optional<int> estimate = point::bare_cutoff_estimate(point::bare_state(source, sc.link.model, d), numerics);
+    if (!estimate) {
+      ++separable;
+      continue;
     }
+    const int n = *estimate;
     if (lo == 0 || n < lo) lo = n;
     if (n > hi) {
       hi = n;
       at = d;
     }
   }
+  if (separable > 0)
+    std::printf("  %zu of %zu distances are separable: exact results there (E_N = 0; P from the photon-number or "
+                "Gaussian-sum path), no Fock state\n",
+                separable, grid.size());
+  if (separable == grid.size()) return 0;
   if (sc.numerics.cutoff > 0) {
     std::printf("  cutoff: fixed at %d (the bare link needs %d..%d for tolerance %.3g)\n", sc.numerics.cutoff, lo, hi, tol);
   } else {
@@ -174,8 +178,10 @@ int cmd_check(const std::string& path) {
                 "          heralded states need more; the run stops at max_cutoff = %d\n",
                 lo, hi, tol, at, mebibytes(fock::memory_bytes_for(engine, hi)).c_str(), sc.numerics.max_cutoff);
     if (hi > sc.numerics.max_cutoff)
-      std::printf("  warning: points beyond the bare link's cutoff %d > max_cutoff %d will miss the tolerance\n", hi,
-                  sc.numerics.max_cutoff);
+      std::printf("  warning: near %.4g m the bare link needs a cutoff above max_cutoff = %d: those points will keep "
+                  "their figures flagged as missing the tolerance (raise numerics.max_cutoff, loosen "
+                  "numerics.tolerance, or move the distance axis)\n",
+                  at, sc.numerics.max_cutoff);
   }
   return 0;
 }

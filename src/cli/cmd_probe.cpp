@@ -19,7 +19,7 @@ int cmd_probe(const ProbeOptions& options) {
   const double d = pr.distance_m;
   const point::LinkPoint& bare = pr.link;
   bool failed = false;
-  for (const auto& row : pr.protocols) failed = failed || row.result.status != Status::ok;
+  for (const auto& row : pr.protocols) failed = failed || !has_figures(row.result.status);
 
   if (options.json) {
     std::string out = "{\"distance_m\": " + json_number(d) + ", \"input\": {\"negativity\": " +

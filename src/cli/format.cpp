@@ -39,6 +39,15 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
                   describe_crossing(v.fidelity_half).c_str());
   }
   out << buf;
+  if (!v.measured && v.survival.kind == Crossing::Kind::crossed) {
+    std::snprintf(buf, sizeof buf,
+                  "  beyond %.4g m the link's state is separable: no local stage (subtraction, addition, amplifier, "
+                  "scissors) can restore entanglement there; those points are exact results (E_N = 0)\n",
+                  v.survival.distance);
+    out << buf;
+  } else if (!v.measured && v.survival.kind == Crossing::Kind::never_positive) {
+    out << "  the link's state is separable over the whole grid: no local stage can restore entanglement\n";
+  }
   if (const std::string caution = antenna_caution(sc); !caution.empty()) out << "  " << caution << "\n";
   if (v.relay_log_negativity)
     out << "  midpoint relay (Gaussian entanglement swapping, ideal Bell measurement): E_N "
@@ -104,7 +113,7 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
       out << buf;
       for (std::size_t j = 0; j < cols; ++j) {
         const std::size_t k = i * cols + j;
-        if (p.slice[k].status != Status::ok) {
+        if (!has_figures(p.slice[k].status)) {
           std::snprintf(buf, sizeof buf, " %10s", "failed");
         } else {
           const double gain = p.slice[k].log_negativity - p.slice_bare_log_negativity[k];

@@ -36,11 +36,12 @@ inline std::string json_number(double v) {
   return buf;
 }
 
-/// Every field of a point's result as JSON members (no braces): "status" in words, the figures
-/// null when the status says the point has none (not ok).
+/// Every field of a point's result as JSON members (no braces): "status" and "method" in words,
+/// the figures null when the status says the point has none (figures of a point that missed its
+/// truncation budget are kept: its status and truncation_error flag them).
 inline std::string json_fields(const point::PointResult& r) {
   std::string out;
-  const bool ok = r.status == Status::ok;
+  const bool ok = has_figures(r.status) || r.status == Status::truncation_budget_missed;
   for (const point::Field& f : point::result_fields()) {
     const double v = f.get(r);
     if (!out.empty()) out += ", ";

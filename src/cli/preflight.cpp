@@ -49,16 +49,12 @@ void preflight_memory(const scenario::Scenario& sc) {
                        "cutoff " + std::to_string(sc.numerics.cutoff) + " needs " + mebibytes(bytes) + " per state");
     return;
   }
-  const double tol = sc.numerics.tolerance;
   const point::Source source = sweep::source_of(sc);
   for (double d : sc.link.distances_m) {
-    const auto s = point::bare_state(source, sc.link.model, d);
-    int needed = sc.numerics.max_cutoff;
-    try {
-      needed = std::min(needed, fock::auto_cutoff_gaussian(s, tol * tol, engine, 1e300));
-    } catch (const fock::CutoffError& e) {
-      needed = std::min(needed, e.needed_cutoff());
-    }
+    // Bounded search (max_cutoff); separable distances build no Fock state of the bare link.
+    const std::optional<int> estimate = point::bare_cutoff_estimate(point::bare_state(source, sc.link.model, d), numerics);
+    if (!estimate) continue;
+    const int needed = std::min(*estimate, sc.numerics.max_cutoff);
     const double bytes = fock::memory_bytes_for(engine, needed);
     if (bytes > max_bytes) {
       char where[64];

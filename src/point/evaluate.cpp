@@ -10,6 +10,7 @@
 #include "heraldry/gaussian.hpp"
 #include "heraldry/measures.hpp"
 #include "heraldry/point.hpp"
+#include "point/exact.hpp"
 
 namespace heraldry::point {
 
@@ -18,6 +19,21 @@ using steps::StepContext;
 using steps::StepSpec;
 using steps::StepType;
 using steps::Weighting;
+
+namespace detail {
+
+StepContext step_context(const PointSpec& spec, const StepSpec& s, Weighting weighting, fock::Workspace* work) {
+  StepContext c;
+  c.counter = s.type->uses_counter ? &spec.counters[static_cast<std::size_t>(s.counter)] : nullptr;
+  c.frequency_hz = mode_frequency_hz(spec.source, s.mode);
+  c.link_a = spec.channel_a;
+  c.link_b = spec.channel_b;
+  c.weighting = weighting;
+  c.work = work;
+  return c;
+}
+
+}  // namespace detail
 
 namespace {
 
@@ -29,6 +45,8 @@ constexpr int max_cutoff_rounds = 40;
 // quadratic forms of the normalised state (absolute round-off ~1e-12).
 constexpr double probability_slack = 1e-12;
 constexpr double measure_slack = 1e-9;
+// The smallest truncation budget handed to the cutoff search (tol^2 P may underflow).
+constexpr double tiny = 1e-300;
 
 // Range guard: x in [lo, hi] within `slack` (then set to the bound it crossed by round-off);
 // false when x is not finite or lies outside by more than round-off, which is a numerical
@@ -52,10 +70,6 @@ void check_channel(const link::Channel& c, const std::string& key) {
     fail(key + ".bath_photons", c.bath_photons, "a finite occupation >= 0");
 }
 
-const CounterModel* counter_of(const PointSpec& spec, const StepSpec& s) {
-  if (!s.type->uses_counter) return nullptr;
-  return &spec.counters[static_cast<std::size_t>(s.counter)];
-}
 
 void check_point(const PointSpec& spec) {
   const Source& src = spec.source;
@@ -105,14 +119,7 @@ bool any_dark_counts(const PointSpec& spec, std::size_t first) {
 }
 
 StepContext context_for(const PointSpec& spec, const StepSpec& s, Weighting weighting, fock::Workspace* work) {
-  StepContext c;
-  c.counter = counter_of(spec, s);
-  c.frequency_hz = mode_frequency_hz(spec.source, s.mode);
-  c.link_a = spec.channel_a;
-  c.link_b = spec.channel_b;
-  c.weighting = weighting;
-  c.work = work;
-  return c;
+  return detail::step_context(spec, s, weighting, work);
 }
 
 fock::SectorState convert(const gaussian::StandardForm& f, int n, fock::SectorState*) { return fock::sector_state(f, n); }
@@ -158,6 +165,7 @@ public:
     State state = make_state<State>(form_, cutoff);
     double cut = 0.0;
     for (std::size_t i = first_; i < spec_.steps.size(); ++i) {
+      detail::poll(spec_.numerics);
       StepContext context = context_for(spec_, spec_.steps[i], weighting, &work_);
       context.amplifier_cut_fraction = cut;
       steps::apply(state, spec_.steps[i], context);
@@ -169,9 +177,13 @@ public:
 
   PointResult evaluate() {
     PointResult result;
+    result.method = Method::fock;
     const Numerics& numerics = spec_.numerics;
     const fock::Engine engine = numerics.engine;
-    const double max_bytes = numerics.max_memory_bytes;
+    // Every cutoff search is bounded by max_cutoff as well as by the memory allowed, before any
+    // large loop starts (the Gaussian trace deficit costs O(N^2 log N) per trial cutoff).
+    const double max_bytes = std::min(numerics.max_memory_bytes,
+                                      fock::memory_bytes_for(engine, std::max(1, numerics.max_cutoff) + 1));
     const double tol = numerics.tolerance;
     std::optional<Run> last;
     int last_cutoff = -1;
@@ -200,7 +212,7 @@ public:
       int cutoff = 1;
       bool fits = true;
       try {
-        cutoff = std::max(1, fock::auto_cutoff_gaussian(form_, tol * tol, engine, max_bytes));
+        cutoff = std::max(1, fock::auto_cutoff_gaussian(form_, std::max(tol * tol, tiny), engine, max_bytes));
       } catch (const fock::CutoffError& e) {
         cutoff = e.needed_cutoff();
         fits = false;
@@ -215,7 +227,8 @@ public:
         const Run r = run(pilot, Weighting::full);
         if (r.probability >= smallest_probability && r.probability < 1.0 - 1e-12 && std::isfinite(r.probability)) {
           try {
-            cutoff = std::max(cutoff, fock::auto_cutoff_gaussian(form_, 0.5 * tol * tol * r.probability, engine, max_bytes));
+            cutoff = std::max(cutoff, fock::auto_cutoff_gaussian(form_, std::max(0.5 * tol * tol * r.probability, tiny),
+                                                                 engine, max_bytes));
           } catch (const fock::CutoffError& e) {
             cutoff = e.needed_cutoff();
             fits = false;
@@ -225,6 +238,7 @@ public:
       int prev_cutoff = -1;
       double prev_error = 0.0;
       for (int round = 0; round < max_cutoff_rounds; ++round) {
+        detail::poll(numerics);
         if (!fits || cutoff > limit) {
           // Refuse to go beyond the memory bound or the largest cutoff allowed; keep the
           // figures of the last cutoff tried (or compute them at the limit if none was) and say
@@ -318,6 +332,7 @@ private:
       r.false_herald_fraction = 1.0 - genuine / p;  // range-checked below, not clipped
     }
     r.status = Status::ok;
+    r.method = Method::fock;
     for (double x : {r.success_probability, r.negativity, r.log_negativity, r.fidelity, r.false_herald_fraction,
                      r.truncation_error, r.amplifier_cut_fraction})
       if (!std::isfinite(x)) r.status = Status::invalid_result;
@@ -333,17 +348,7 @@ private:
     }
   }
 
- public:
-  // The heralding rate of an ok point: trial rate x P.
-  void rate(PointResult& r) const {
-    if (r.status != Status::ok) return;
-    const double trials =
-        steps::trial_rate_hz(spec_.source.bandwidth_hz, steps::counters_used(spec_.steps, spec_.counters));
-    r.heralding_rate_hz = trials * r.success_probability;
-  }
-
  private:
-
   const PointSpec& spec_;
   gaussian::StandardForm form_;
   std::size_t first_;
@@ -351,12 +356,58 @@ private:
   measures::Workspace measures_work_;
 };
 
+// The heralding rate of a point with figures (flagged ones included): trial rate x P.
+void rate(const PointSpec& spec, PointResult& r) {
+  if (!(has_figures(r.status) || r.status == Status::truncation_budget_missed)) return;
+  const double trials = steps::trial_rate_hz(spec.source.bandwidth_hz, steps::counters_used(spec.steps, spec.counters));
+  r.heralding_rate_hz = trials * r.success_probability;
+}
+
+template <class State>
+PointResult fock_path(const PointSpec& spec, const gaussian::StandardForm& form, std::size_t first) {
+  Evaluator<State> e(spec, form, first);
+  return e.evaluate();
+}
+
+PointResult fock_path(const PointSpec& spec, const gaussian::StandardForm& form, std::size_t first) {
+  return spec.numerics.engine == fock::Engine::sector ? fock_path<fock::SectorState>(spec, form, first)
+                                                      : fock_path<fock::DenseState>(spec, form, first);
+}
+
+// A separable result: N = E_N = 0 exactly (local operations and postselection cannot create
+// entanglement), P and the false-herald fraction exact, F exact or its bound 1/2.
+PointResult separable_result(double p, double genuine, double fidelity, bool fidelity_is_bound, Method method) {
+  PointResult r;
+  r.method = method;
+  r.status = Status::separable_input;
+  r.success_probability = p;
+  r.fidelity = fidelity;
+  r.fidelity_bound = fidelity_is_bound ? 1 : 0;
+  if (!(p >= smallest_probability)) {
+    r.status = Status::herald_below_roundoff;
+    r.success_probability = std::max(0.0, std::isfinite(p) ? p : 0.0);
+    r.fidelity = 0.0;
+    r.fidelity_bound = 0;
+    return r;
+  }
+  r.false_herald_fraction = 1.0 - genuine / p;
+  if (!within(r.success_probability, 0.0, 1.0, probability_slack) || !within(r.fidelity, 0.0, 0.5, measure_slack) ||
+      !within(r.false_herald_fraction, 0.0, 1.0, measure_slack)) {
+    r.status = Status::invalid_result;
+    r.fidelity = r.false_herald_fraction = 0.0;
+    r.fidelity_bound = 0;
+    if (!std::isfinite(r.success_probability)) r.success_probability = 0.0;
+  }
+  return r;
+}
+
 }  // namespace
 
 PointResult evaluate(const PointSpec& spec) {
   check_point(spec);
+  detail::poll(spec.numerics);
   // Gaussian prefix: leading link and loss steps act on the covariance matrix (exact), so the
-  // state enters Fock space once, after the last Gaussian step (docs/physics.md §2.3, pitfall 6).
+  // state enters Fock space once, after the last Gaussian step (docs/physics.md §2.3).
   gaussian::StandardForm form = source_state(spec.source);
   std::size_t first = 0;
   for (; first < spec.steps.size(); ++first) {
@@ -366,15 +417,30 @@ PointResult evaluate(const PointSpec& spec) {
     if (ch.a) form = gaussian::apply(form, Mode::A, *ch.a);
     if (ch.b) form = gaussian::apply(form, Mode::B, *ch.b);
   }
-  if (spec.numerics.engine == fock::Engine::sector) {
-    Evaluator<fock::SectorState> e(spec, form, first);
-    PointResult r = e.evaluate();
-    e.rate(r);
-    return r;
+  // The cheapest exact path (docs/physics.md §10).
+  if (first == spec.steps.size()) return detail::covariance_figures(form);  // Gaussian steps only
+  PointResult r;
+  const bool separable_in = detail::separable(form);
+  if (separable_in || detail::breaks_entanglement(spec, first)) {
+    if (const auto sum = detail::gaussian_sum(spec, form, first)) {
+      r = separable_result(sum->probability, sum->genuine_probability, sum->fidelity, false, Method::gaussian_sum);
+    } else if (const auto num = separable_in ? detail::photon_number(spec, form, first) : std::nullopt) {
+      r = separable_result(num->probability, num->genuine_probability, 0.5, true, Method::photon_number);
+      if (r.status == Status::separable_input) {
+        r.truncation_error = num->tail / r.success_probability;
+        r.amplifier_cut_fraction = num->amplifier_cut_fraction;
+      }
+    } else {
+      // No closed form for these steps: the Fock engine, whose entanglement figures are 0 by
+      // the theorem whatever the truncation makes of them.
+      r = fock_path(spec, form, first);
+      r.negativity = r.log_negativity = 0.0;
+      if (r.status == Status::ok) r.status = Status::separable_input;
+    }
+  } else {
+    r = fock_path(spec, form, first);
   }
-  Evaluator<fock::DenseState> e(spec, form, first);
-  PointResult r = e.evaluate();
-  e.rate(r);
+  rate(spec, r);
   return r;
 }
 

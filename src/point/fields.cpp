@@ -45,16 +45,19 @@ const std::array fields{
     HERALDRY_FIELD(log_negativity, "ebit", "log-negativity of the heralded state", true),
     HERALDRY_FIELD(fidelity, "1", "Braunstein-Kimble unit-gain coherent-state teleportation fidelity", true),
     HERALDRY_FIELD(heralding_rate_hz, "Hz", "heralded pairs per second: trial rate x success probability", true),
-    HERALDRY_FIELD(false_herald_fraction, "1", "fraction of heralds in which a counter that fired received no photon",
+    HERALDRY_FIELD(false_herald_fraction, "1", "fraction of heralds in which a counter received fewer photons than its reading claims (none for a "
+                   "click, fewer than k for k counts)",
                    true),
     HERALDRY_FIELD(truncation_error, "1",
-                   "error scale of the figures due to the Fock cutoff: sqrt(probability lost to the cutoff / success "
-                   "probability)",
+                   "error scale of the figures: Fock space, sqrt(probability lost to the cutoff / success probability); "
+                   "photon-number path, the bound on the relative error of P; 0 for closed forms",
                    false),
     HERALDRY_FIELD(amplifier_cut_fraction, "1", "input weight above the amplifier's photon-number range", false),
     HERALDRY_FIELD(cutoff, "1", "per-mode photon-number cutoff of the computation", false),
     HERALDRY_FIELD(cutoff_needed, "1", "per-mode cutoff the tolerance needs (an estimate when it was not reached)",
                    false),
+    HERALDRY_FIELD(fidelity_bound, "1",
+                   "1 when fidelity holds the bound 1/2 of a separable resource instead of a computed value", false),
     Field{"status", "1",
           "0 ok, 1 truncation budget missed, 2 herald below round-off, 3 not computed, 4 invalid, 5 separable input "
           "(exact: N = E_N = 0)",

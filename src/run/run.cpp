@@ -33,9 +33,14 @@ std::string utc_now() {
   return buf;
 }
 
-point::PointResult evaluate_job(const scenario::Scenario& sc, const sweep::Plan& plan, const sweep::Job& job) {
+// `cancel`: a stop request interrupts the point itself (point::Cancelled), so a signal is
+// answered within about a second even inside one expensive point.
+point::PointResult evaluate_job(const scenario::Scenario& sc, const sweep::Plan& plan, const sweep::Job& job,
+                                const std::atomic<bool>* cancel = nullptr) {
   const auto [p, flat] = job;
-  return point::evaluate(sweep::resolve(sc, plan, p, plan.protocols[p].unflatten(flat)));
+  point::PointSpec spec = sweep::resolve(sc, plan, p, plan.protocols[p].unflatten(flat));
+  spec.numerics.cancel = cancel;
+  return point::evaluate(spec);
 }
 
 // An MPI rank > 0: evaluates the batches rank 0 hands out; no files. An error of planning is
@@ -82,16 +87,12 @@ std::vector<sweep::Job> ordered_jobs(const scenario::Scenario& sc, const sweep::
         jobs.emplace_back(p, i);
     }
   const point::Source source = sweep::source_of(sc);
+  const point::Numerics numerics = sweep::numerics_of(sc);
   std::vector<double> distance_cost;
   for (double d : sc.link.distances_m) {
-    double n = 10.0;
-    try {
-      n = fock::auto_cutoff_gaussian(point::bare_state(source, sc.link.model, d),
-                                     sc.numerics.tolerance * sc.numerics.tolerance, fock::Engine::sector, 1e18);
-    } catch (const std::exception&) {
-      n = sc.numerics.max_cutoff;
-    }
-    distance_cost.push_back(std::pow(std::min<double>(n, sc.numerics.max_cutoff), 3.5));
+    // Separable distances take the exact paths: about the cost of a cutoff-10 Fock point.
+    const std::optional<int> n = point::bare_cutoff_estimate(point::bare_state(source, sc.link.model, d), numerics);
+    distance_cost.push_back(std::pow(std::min<double>(n.value_or(10), sc.numerics.max_cutoff), 3.5));
   }
   std::vector<double> cost(jobs.size());
   for (std::size_t j = 0; j < jobs.size(); ++j) {
@@ -152,7 +153,8 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
   hooks.evaluate = [&](const sweep::Job& job) {
     now_protocol.store(job.first);
     now_flat.store(job.second);
-    return evaluate_job(sc, plan, job);
+    // Several ranks: a rank stops between batches (a cancelled point there would read as an error).
+    return evaluate_job(sc, plan, job, ranks > 1 ? nullptr : &stop_requested);
   };
   hooks.store = [&](const sweep::Outcome& o) {
     output::ProtocolTable& t = data.protocols.at(o.job.first);
@@ -255,7 +257,7 @@ Summary execute(const scenario::Scenario& sc, const Options& options) {
   }
   for (const auto& t : data.protocols)
     for (std::size_t i = 0; i < t.points.size(); ++i)
-      if (t.done[i] && t.points[i].status != Status::ok) ++summary.failed_points;
+      if (t.done[i] && !has_figures(t.points[i].status)) ++summary.failed_points;
   summary.seconds = std::chrono::duration<double>(Clock::now() - t0).count();
   summary.data = std::move(data);
   return summary;

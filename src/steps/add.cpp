@@ -87,6 +87,29 @@ void apply(State& state, const StepSpec& step, StepContext& context) {
               detail::work_of(context));
 }
 
+// P(herald | n photons): the idler holds k photons with the negative-binomial law of a
+// quantum-limited amplifier of gain cosh^2 s acting on |n>.
+std::vector<double> effect(const StepSpec& step, const StepContext& context, int max_photons) {
+  const CounterModel& counter = detail::counter_of(step, context);
+  const double th = std::tanh(step.values[0]);
+  const detail::ReadingTail tail = detail::reading_tail(counter, herald_reading, context.weighting, 10'000'000);
+  return detail::negative_binomial_mixture(tail, th * th, max_photons);
+}
+
+// The two-mode squeezer with the vacuum idler: x' = ch x + sh x_i, p' = ch p - sh p_i.
+std::optional<GaussianDilation> dilation(const StepSpec& step, const CounterModel& counter) {
+  if (counter.kind != CounterKind::threshold) return std::nullopt;
+  const double ch = std::cosh(step.values[0]), sh = std::sinh(step.values[0]);
+  const Eigen::Matrix2d z = Eigen::Vector2d(1.0, -1.0).asDiagonal();
+  GaussianDilation d;
+  d.symplectic.topLeftCorner<2, 2>() = ch * Eigen::Matrix2d::Identity();
+  d.symplectic.topRightCorner<2, 2>() = sh * z;
+  d.symplectic.bottomLeftCorner<2, 2>() = sh * z;
+  d.symplectic.bottomRightCorner<2, 2>() = ch * Eigen::Matrix2d::Identity();
+  d.reading = herald_reading;
+  return d;
+}
+
 }  // namespace
 
 extern const StepType add_step{
@@ -99,6 +122,8 @@ extern const StepType add_step{
     .channels = nullptr,
     .apply_sector = &apply<fock::SectorState>,
     .apply_dense = &apply<fock::DenseState>,
+    .effect = &effect,
+    .dilation = &dilation,
 };
 
 }  // namespace heraldry::steps

@@ -52,6 +52,18 @@ void apply(State& state, const StepSpec& step, StepContext& context) {
   fock::apply(state, step.mode, amplify_operation(gain, big_n, cutoff), detail::work_of(context));
 }
 
+// K^dagger K = g^{2(n-N)} on n <= N (g > 1), g^{2n} (g <= 1).
+std::vector<double> effect(const StepSpec& step, const StepContext&, int max_photons) {
+  const double g = step.values[0];
+  const int big_n = static_cast<int>(step.values[1]);
+  std::vector<double> e(static_cast<std::size_t>(max_photons + 1), 0.0);
+  for (int n = 0; n <= max_photons; ++n) {
+    if (g <= 1.0) e[n] = std::pow(g, 2.0 * n);
+    else if (n <= big_n) e[n] = std::pow(g, 2.0 * (n - big_n));
+  }
+  return e;
+}
+
 }  // namespace
 
 extern const StepType amplify_step{
@@ -64,6 +76,8 @@ extern const StepType amplify_step{
     .channels = nullptr,
     .apply_sector = &apply<fock::SectorState>,
     .apply_dense = &apply<fock::DenseState>,
+    .effect = &effect,
+    .dilation = nullptr,
 };
 
 }  // namespace heraldry::steps

@@ -76,20 +76,23 @@ double one_minus(double q_log, double eta, int k) {
   return -std::expm1(q_log + k * std::log1p(-eta));
 }
 
+// A genuine herald is one in which the counter received at least as many photons as its reading
+// claims (k >= 1 for a click, k >= j for j counts): the heralded state then underwent what the
+// reading says, whatever dark counts and misses added to the count.
 double threshold_probability(const CounterModel& c, int reading, int k, Weighting w) {
   if (reading == 0) return (1.0 - c.dark) * miss_all(c.efficiency, k);
-  if (w == Weighting::genuine) return one_minus(0.0, c.efficiency, k);
+  if (w == Weighting::genuine && k < 1) return 0.0;
   return one_minus(std::log1p(-c.dark), c.efficiency, k);
 }
 
-// sum_{i=0}^{min(j,k)} C(k,i) eta^i (1-eta)^{k-i} e^{-nu} nu^{j-i}/(j-i)!; genuine: i = j only.
+// sum_{i=0}^{min(j,k)} C(k,i) eta^i (1-eta)^{k-i} e^{-nu} nu^{j-i}/(j-i)!; genuine: 0 for k < j.
 double resolving_probability(const CounterModel& c, int j, int k, Weighting w) {
   const double eta = c.efficiency, nu = c.dark;
   const double e_nu = std::exp(-nu);
   auto photon_term = [&](int i) {
     return detail::binomial(k, i) * detail::power(eta, i) * detail::power(1.0 - eta, k - i);
   };
-  if (w == Weighting::genuine && j > 0) return j <= k ? photon_term(j) * e_nu : 0.0;
+  if (w == Weighting::genuine && k < j) return 0.0;
   double sum = 0.0;
   for (int i = 0; i <= std::min(j, k); ++i) {
     const int m = j - i;

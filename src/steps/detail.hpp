@@ -31,6 +31,24 @@ double power(double x, int k);
 /// round-off; zero operators disappear.
 fock::Operation merge_by_shift(const std::vector<fock::ShiftOperator>& kraus);
 
+/// The reading weights w(k) = reading_probability(counter, reading, k, weighting) from k = 0 up
+/// to the first k (at most k_max) beyond which |w(k) - limit| < 1e-20, and their limit for
+/// k -> infinity (src/steps/effect.cpp).
+struct ReadingTail {
+  std::vector<double> w;
+  double limit = 0.0;
+  double at(int k) const;  // w(k), the limit beyond the stored range
+};
+ReadingTail reading_tail(const CounterModel& counter, int reading, Weighting weighting, int k_max);
+
+/// e(n) = sum_k C(n,k) r^k (1-r)^{n-k} w(k), n = 0..max_photons: a beam splitter sends each
+/// photon to the counter with probability r.
+std::vector<double> binomial_mixture(const ReadingTail& tail, double reflect, int max_photons);
+
+/// e(n) = sum_k C(n+k,k) (1-x)^{n+1} x^k w(k), n = 0..max_photons: k idler photons of a
+/// two-mode squeezer with tanh^2 s = x acting on |n> with a vacuum idler.
+std::vector<double> negative_binomial_mixture(const ReadingTail& tail, double x, int max_photons);
+
 /// The counter of a step whose kind uses one; InputError when the context has none.
 const CounterModel& counter_of(const StepSpec& step, const StepContext& context);
 

@@ -92,6 +92,66 @@ void apply(State& state, const StepSpec& step, StepContext& context) {
               detail::work_of(context));
 }
 
+// P(herald | n photons), from the amplitudes above summed in modulus squared: with J photons at
+// the counters split (k1, k2), W = fire(k1) silent(k2) + silent(k1) fire(k2) (both heralds),
+//   e(n) = ps (1-kappa) A(n+1) + (ps kappa + 1 - ps) B(n),
+//   B(J) = 2^{-J} sum_k1 C(J,k1) W,   A(J) = 2^{-J} sum_k1 C(J,k1) (k1-k2)^2 / J W.
+// A silent counter's weight decays with its photons, so for large J only k1 or k2 <= K matter.
+std::vector<double> effect(const StepSpec& step, const StepContext& context, int max_photons) {
+  const CounterModel& counter = detail::counter_of(step, context);
+  const double g = step.values[0], ps = step.values[1];
+  const double kappa = g * g / (1.0 + g * g);
+  const int top = max_photons + 1;
+  const detail::ReadingTail silent = detail::reading_tail(counter, 0, context.weighting, top);
+  const detail::ReadingTail fire = detail::reading_tail(counter, 1, context.weighting, top);
+  const int kk = static_cast<int>(silent.w.size()) - 1;
+  std::vector<double> log_c(static_cast<std::size_t>(kk + 1));
+  auto sums = [&](int j, double& b, double& a) {
+    b = a = 0.0;
+    if (j == 0) {
+      b = 2.0 * fire.at(0) * silent.at(0);
+      return;
+    }
+    const double log_half = -j * std::log(2.0);
+    auto term = [&](int k1, double log_binom) {
+      const int k2 = j - k1;
+      const double w = fire.at(k1) * silent.at(k2) + silent.at(k1) * fire.at(k2);
+      if (w == 0.0) return;
+      const double c = std::exp(log_binom + log_half) * w;
+      b += c;
+      a += c * double(k1 - k2) * double(k1 - k2) / j;
+    };
+    if (j <= 2 * kk + 1) {
+      double lb = 0.0;
+      for (int k1 = 0; k1 <= j; ++k1) {
+        if (k1 > 0) lb += std::log(double(j - k1 + 1)) - std::log(double(k1));
+        term(k1, lb);
+      }
+    } else {
+      // log C(j, k) for k <= K by the recurrence; C(j, j - k) is the same number.
+      double lb = 0.0;
+      for (int k = 0; k <= kk; ++k) {
+        if (k > 0) lb += std::log(double(j - k + 1)) - std::log(double(k));
+        log_c[static_cast<std::size_t>(k)] = lb;
+      }
+      for (int k1 = 0; k1 <= kk; ++k1) term(k1, log_c[static_cast<std::size_t>(k1)]);
+      for (int k1 = j - kk; k1 <= j; ++k1) term(k1, log_c[static_cast<std::size_t>(j - k1)]);
+    }
+  };
+  std::vector<double> e(static_cast<std::size_t>(max_photons + 1));
+  double b_next = 0.0, a_next = 0.0;
+  sums(0, b_next, a_next);
+  for (int n = 0; n <= max_photons; ++n) {
+    const double b_n = b_next;
+    sums(n + 1, b_next, a_next);
+    e[n] = ps * (1.0 - kappa) * a_next + (ps * kappa + 1.0 - ps) * b_n;
+    // Beyond 2K + 1 photons every term C(J, k) 2^{-J} (k <= K) falls with J: once the sums
+    // underflow, the effect is 0 for every larger n.
+    if (n + 1 > 2 * kk + 1 && b_n < 1e-300 && b_next < 1e-300 && a_next < 1e-300) break;
+  }
+  return e;
+}
+
 }  // namespace
 
 extern const StepType scissors_step{
@@ -104,6 +164,8 @@ extern const StepType scissors_step{
     .channels = nullptr,
     .apply_sector = &apply<fock::SectorState>,
     .apply_dense = &apply<fock::DenseState>,
+    .effect = &effect,
+    .dilation = nullptr,
 };
 
 }  // namespace heraldry::steps

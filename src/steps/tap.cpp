@@ -59,6 +59,29 @@ void apply(State& state, const StepSpec& step, StepContext& context) {
               detail::work_of(context));
 }
 
+// P(herald | n photons): each photon reaches the counter with probability 1 - T.
+std::vector<double> effect(const StepSpec& step, const StepContext& context, int max_photons) {
+  const CounterModel& counter = detail::counter_of(step, context);
+  const detail::ReadingTail tail =
+      detail::reading_tail(counter, static_cast<int>(step.values[1]), context.weighting, max_photons);
+  return detail::binomial_mixture(tail, 1.0 - step.values[0], max_photons);
+}
+
+// A beam splitter with the counter's vacuum port: x' = sqrt(T) x + sqrt(1-T) x_c (both
+// quadratures alike), the ancilla x_c' = -sqrt(1-T) x + sqrt(T) x_c.
+std::optional<GaussianDilation> dilation(const StepSpec& step, const CounterModel& counter) {
+  if (counter.kind != CounterKind::threshold || step.values[1] != 1.0) return std::nullopt;
+  const double t = std::sqrt(step.values[0]), r = std::sqrt(1.0 - step.values[0]);
+  GaussianDilation d;
+  d.symplectic.setZero();
+  d.symplectic.topLeftCorner<2, 2>() = t * Eigen::Matrix2d::Identity();
+  d.symplectic.topRightCorner<2, 2>() = r * Eigen::Matrix2d::Identity();
+  d.symplectic.bottomLeftCorner<2, 2>() = -r * Eigen::Matrix2d::Identity();
+  d.symplectic.bottomRightCorner<2, 2>() = t * Eigen::Matrix2d::Identity();
+  d.reading = 1;
+  return d;
+}
+
 }  // namespace
 
 extern const StepType tap_step{
@@ -71,6 +94,8 @@ extern const StepType tap_step{
     .channels = nullptr,
     .apply_sector = &apply<fock::SectorState>,
     .apply_dense = &apply<fock::DenseState>,
+    .effect = &effect,
+    .dilation = &dilation,
 };
 
 }  // namespace heraldry::steps

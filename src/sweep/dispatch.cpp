@@ -2,6 +2,7 @@
 // differ in cost: the cutoff grows with squeezing and noise); between chunks the calling thread
 // may checkpoint and report progress. Results land in per-job slots, so they do not depend on
 // the thread count or the schedule.
+#include <atomic>
 #include <algorithm>
 #include <cstdlib>
 #include <exception>
@@ -73,12 +74,30 @@ public:
     std::vector<std::size_t> todo(jobs.size());
     for (std::size_t j = 0; j < todo.size(); ++j) todo[j] = j;
     std::vector<point::PointResult> results(jobs.size());
+    // A point cancelled by a stop request (point::Cancelled, from inside its evaluation) has no
+    // result: the points of its chunk that finished are stored, the rest stay to be computed.
+    std::vector<char> finished(jobs.size(), 0);
+    std::atomic<bool> cancelled{false};
     std::size_t stored = 0;
-    dispatch(todo, threads_, [&](std::size_t j) { results[j] = hooks.evaluate(jobs[j]); }, hooks.stop,
-             [&](std::size_t done) {
-               for (; stored < done; ++stored) hooks.store(Outcome{jobs[stored], results[stored]});
-               if (hooks.tick) hooks.tick();
-             });
+    auto store_finished = [&](std::size_t done) {
+      for (; stored < done; ++stored)
+        if (finished[stored]) hooks.store(Outcome{jobs[stored], results[stored]});
+    };
+    dispatch(
+        todo, threads_,
+        [&](std::size_t j) {
+          try {
+            results[j] = hooks.evaluate(jobs[j]);
+            finished[j] = 1;
+          } catch (const point::Cancelled&) {
+            cancelled.store(true);
+          }
+        },
+        [&] { return cancelled.load() || (hooks.stop && hooks.stop()); },
+        [&](std::size_t done) {
+          store_finished(done);
+          if (hooks.tick) hooks.tick();
+        });
   }
 
 private:

@@ -97,7 +97,7 @@ private:
     Figures f;
     static_cast<point::PointResult&>(f) = r;
     f.objective = minus_infinity;
-    if (r.status != Status::ok) return f;
+    if (!has_figures(r.status)) return f;
     f.feasible = (!options_.min_rate_hz || f.heralding_rate_hz >= *options_.min_rate_hz) &&
                  (!options_.max_false_herald_fraction ||
                   f.false_herald_fraction <= *options_.max_false_herald_fraction);

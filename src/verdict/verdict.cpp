@@ -15,7 +15,8 @@ namespace heraldry::verdict {
 
 namespace {
 
-bool usable(const point::PointResult& r) { return r.status == Status::ok; }
+// Figures one may quote: ok, or the exact separable result (E_N = 0).
+bool usable(const point::PointResult& r) { return has_figures(r.status); }
 
 // A gain smaller than this is round-off, not a gain (E_N and F are computed to ~1e-12; the
 // figures' truncation error is bounded by the tolerance, at least 1e-20 of it).
@@ -53,11 +54,27 @@ std::string summarise(const scenario::Protocol& proto, const ProtocolVerdict& pv
     place << "at " << v.target_m << " m";
   if (!usable(best)) {
     line << "no verdict " << place.str() << ": " << to_string(best.status);
-    if (best.status == Status::truncation_budget_missed) line << " (needs cutoff " << best.cutoff_needed << ")";
+    if (best.status == Status::truncation_budget_missed) {
+      // Figures kept but flagged: quoted with their error scale, never as a verdict.
+      line << " (needs cutoff " << best.cutoff_needed << "); flagged figures at cutoff " << best.cutoff << ": E_N "
+           << best.log_negativity << ", F " << best.fidelity << ", P " << best.success_probability
+           << ", truncation error " << best.truncation_error;
+    }
     return line.str();
   }
   if (!heralds(proto)) {
     line << "no heralding: this is the link itself (E_N " << best.log_negativity << ", F " << best.fidelity << ")";
+    return line.str();
+  }
+  if (best.status == Status::separable_input) {
+    line << "cannot pay off " << place.str()
+         << ": the state entering its heralded steps is separable there, and no local stage restores entanglement "
+            "(E_N = 0 exactly); F ";
+    if (best.fidelity_bound)
+      line << "<= 0.5 (the bound for a separable resource)";
+    else
+      line << best.fidelity << " (<= 0.5)";
+    line << "; " << best.heralding_rate_hz << " heralded pairs/s";
     return line.str();
   }
   line << (pv.pays_off_log_negativity ? "pays off" : "does not pay off") << " " << place.str() << ": E_N "
