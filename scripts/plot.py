@@ -528,9 +528,8 @@ def nice_ticks(lo, hi, log=False):
                 break
         if len(ticks) > 8:
             ticks = ticks[::math.ceil(len(ticks) / 6)]
-        if len(ticks) < 3:
-            ticks = [float(f"{v:.2g}") for v in np.geomspace(lo, hi, 3)]
-            ticks = [min(max(t, lo), hi) for t in ticks]
+        if len(ticks) < 3:   # less than a decade: plain 1-2-5 steps read best on a log bar too
+            return nice_ticks(lo, hi, False)
         return np.array(sorted(set(ticks)))
     for nbins in (5, 8):
         ticks = MaxNLocator(nbins=nbins, steps=[1, 2, 2.5, 5, 10]).tick_values(lo, hi)
@@ -554,12 +553,15 @@ def tick_text(ticks, log=False):
         e = math.floor(math.log10(abs(v)))
         m = v / 10.0 ** e
         m_text = f"{m:.2g}"
+        sign = "-" if v < 0 else ""
         if m_text in ("1", "-1"):
-            return ("-" if v < 0 else "") + f"$10^{{{e}}}$"
+            return f"${sign}10^{{{e}}}$"
         if m_text in ("10", "-10"):
-            return ("-" if v < 0 else "") + f"$10^{{{e + 1}}}$"
+            return f"${sign}10^{{{e + 1}}}$"
         return f"${m_text}\\times10^{{{e}}}$"
 
+    if log and ticks.size and np.all(ticks > 0) and ticks.max() / ticks.min() >= 1e3:
+        return [sci(v) for v in ticks]   # three decades or more: powers of ten throughout
     if log:
         return [f"{v:g}" if 1e-3 <= abs(v) < 1e4 else sci(v) for v in ticks]
     if big >= 1e4 or tiny:
@@ -571,7 +573,9 @@ def tick_text(ticks, log=False):
     out = []
     for v in ticks:
         text = f"{v:.{decimals}f}"
-        out.append(text[1:] if text.startswith("-") and float(text) == 0.0 else text)   # no "-0.0"
+        if text.startswith("-"):   # no "-0.0"; a true minus sign otherwise
+            text = text[1:] if float(text) == 0.0 else "\u2212" + text[1:]
+        out.append(text)
     return out
 
 
