@@ -1,9 +1,19 @@
 #!/usr/bin/env bash
-# scripts/plot.py draws every figure of a small run.
+# scripts/plot.py draws every figure of a small run, overlays two runs, and draws separable points
+# as results.
 #   tests/test_plot.sh HERALDRY_BINARY SCRATCH_FOLDER     (run from the source root; CTest does)
-# Runs a tiny invented scenario (cryogenic line, 5 distances, one fixed and one swept tap), plots
-# it, and checks that each expected figure is a non-empty PNG of the promised size; then checks
-# that plot.py refuses a missing file and a file without the result layout with a non-zero exit.
+# 1. Runs a tiny invented scenario (cryogenic line, 5 distances, one fixed and one swept tap),
+#    plots it, and checks that each expected figure is a non-empty PNG of the promised size.
+# 2. Runs a second invented scenario (more squeezing, an extra protocol that sorts first, so the
+#    protocols sit at other places in the file) and overlays the two: `plot.py r.h5 r2.h5`.
+# 3. Writes a small synthetic result file (h5py, the layout of src/io/hdf5_output.cpp, invented
+#    numbers labelled as synthetic test data) with separable points (status 5) beyond a bare-link
+#    crossing and one failure of each kind (status 1, 2, 4), and plots it.
+# 4. Imports plot.py and checks what was drawn: the same colour for the same protocol in both
+#    files, separable points drawn as values (E_N = 0), failures as markers and never as values,
+#    the separability line and its words, the E_N-versus-PLOB note, colour bars with at least three
+#    ticks, map cells with edges half-way between non-uniform grid values.
+# 5. Checks that plot.py refuses a missing file and a file without the result layout.
 set -euo pipefail
 
 binary=${1:?usage: test_plot.sh HERALDRY_BINARY SCRATCH_FOLDER}
@@ -83,7 +93,40 @@ done
 maps=$(find "$scratch" -maxdepth 1 -name 'r_map_*.png' | wc -l)
 [[ "$maps" -eq 1 ]] || fail "expected exactly one map, found $maps"
 
-# --out writes into another folder (created if missing).
+# 2. A second run, and the two overlaid on one set of axes.
+sed -e 's/squeezing_db = 3.0/squeezing_db = 4.0/' \
+    -e 's/^title = .*/title = "Plot check: the same line with more squeezing and an amplifier"/' \
+    "$scratch/tiny.toml" > "$scratch/tiny2.toml"
+cat >> "$scratch/tiny2.toml" <<'EOF'
+
+[[protocol]]
+name = "amplify b"
+steps = ["link", { amplify = "b", gain = 1.2, max_photons = 3 }]
+EOF
+"$binary" run "$scratch/tiny2.toml" -o "$scratch/r2.h5" --threads 1 > "$scratch/run2.log" 2>&1 \
+  || { cat "$scratch/run2.log" >&2; echo "FAIL: heraldry run of the second scenario did not succeed" >&2; exit 1; }
+"$python" "$plot" "$scratch/r.h5" "$scratch/r2.h5" --out "$scratch/overlay" > "$scratch/overlay.log" 2>&1 \
+  || { cat "$scratch/overlay.log" >&2; echo "FAIL: plot.py did not overlay two files" >&2; exit 1; }
+for name in r_vs_r2_entanglement.png r_vs_r2_fidelity.png r_vs_r2_rates.png r_map_subtract-b-swept-tap.png \
+            r2_map_subtract-b-swept-tap.png; do
+  [[ -s "$scratch/overlay/$name" ]] || fail "overlay: $name was not written"
+  grep -qF "$scratch/overlay/$name" "$scratch/overlay.log" || fail "overlay: plot.py did not print the path of $name"
+done
+
+# 3. Synthetic test data (tests/plot/synthetic_result.py): separable points, failures of each kind.
+"$python" tests/plot/synthetic_result.py "$scratch/separable.h5"
+"$python" "$plot" "$scratch/separable.h5" > "$scratch/separable.log" 2>&1 \
+  || { cat "$scratch/separable.log" >&2; echo "FAIL: plot.py did not draw the synthetic separable file" >&2; exit 1; }
+for name in separable_entanglement.png separable_fidelity.png separable_rates.png \
+            separable_map_subtract-both.png separable_map_subtract-a.png; do
+  [[ -s "$scratch/$name" ]] || fail "separable: $name was not written"
+done
+
+# 4. What was drawn, read back from the figures (tests/plot/check_plots.py).
+"$python" tests/plot/check_plots.py "$scratch" "$plot" > "$scratch/checks.log" 2>&1 \
+  || { cat "$scratch/checks.log" >&2; fail "the figures do not show what they should (lines above)"; }
+
+# 5. --out writes into another folder (created if missing).
 "$python" "$plot" "$scratch/r.h5" --out "$scratch/figures" > /dev/null 2>&1 \
   && [[ -s "$scratch/figures/r_rates.png" ]] || fail "--out did not write into the named folder"
 
@@ -104,4 +147,5 @@ if [[ $failures -ne 0 ]]; then
   echo "$failures check(s) failed" >&2
   exit 1
 fi
-echo "plot: all figures written as ${#expected[@]} PNGs of 960 x 600 pixels; bad inputs refused"
+echo "plot: all figures written as ${#expected[@]} PNGs of 960 x 600 pixels; two runs overlaid with one colour" \
+     "per protocol; separable points drawn as results, failures as markers; bad inputs refused"
