@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""Draw the figures of a heraldry result file (HDF5, layout in DESIGN.md "HDF5 output").
+"""Draw the figures of a heraldry result file (HDF5, layout in docs/design.md §9).
 
     scripts/plot.py RESULT.h5 [--out FOLDER]
 
