@@ -226,6 +226,28 @@ TEST_CASE("README: open air at 5.4 GHz keeps entanglement to 5.38 m with 1.2 m d
   }
 }
 
+TEST_CASE("README: spillover at 290 K shortens the 1.2 m dish link to 5.28 m at 1e-4 and breaks it at 2 %") {
+  // Each spillover stage is a beam splitter with a thermal port at 290 K (docs/physics.md §2.1,
+  // §12.5); with 2e-2 per antenna they add s n ~ 44 photons against the ~1 a one-way link
+  // tolerates (§2.5), so no distance is entangled (the table of docs/hardware.md §2).
+  auto survival = [](const char* spill) {
+    const std::string text = std::string("title = \"dish\"\n[source]\nfrequency_ghz = 5.4\nsqueezing_db = 6.0\n"
+                                         "bandwidth_mhz = 1.0\n[link]\nmedium = \"air\"\n"
+                                         "distance_m = { from = 0.5, to = 8.0, points = 16 }\n"
+                                         "[link.antenna]\ndiameter_m = 1.2\naperture_efficiency = 0.7\n"
+                                         "spillover_temperature_k = 290.0\nspillover_loss = ") +
+                             spill + "\n[[protocol]]\nname = \"bare\"\nsteps = [\"link\"]\n";
+    const scenario::Scenario sc = scenario::parse(text, "<test>");
+    return point::bare_crossings(sweep::source_of(sc), sc.link.model, sc.link.distances_m).survival;
+  };
+  const Crossing small = survival("1e-4");
+  REQUIRE(small.kind == Crossing::Kind::crossed);
+  check_printed(small.distance, 5.28, 2);
+  // 2 %: 2 x 0.02 x n(5.4 GHz, 290 K) photons at d = 0, n = 1118.5 (Planck, §2.4).
+  CHECK(2.0 * 0.02 * link::planck_occupation(5.4e9, 290.0) > 1.0);
+  CHECK(survival("2e-2").kind == Crossing::Kind::never_positive);
+}
+
 TEST_CASE("README: a heralded stage after an entanglement-breaking channel leaves E_N = 0") {
   // Mode b through tau = 0.5 with n_E = 2: (1 - tau) n_E = 1 >= tau, entanglement breaking
   // (Holevo, Probl. Inf. Transm. 44, 171 (2008), from memory; docs/physics.md §2.5), so the state
