@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""Draw the figures of heraldry result files (HDF5, layout written by src/io/hdf5_output.cpp).
+"""Draw the figures of heraldry result files (HDF5, layout in docs/design.md §9).
 
     scripts/plot.py RESULT.h5 [MORE.h5 ...] [--out FOLDER]
 

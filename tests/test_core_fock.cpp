@@ -63,10 +63,10 @@ double max_abs_difference(const SectorState& x, const SectorState& y, int up_to)
 }  // namespace
 
 TEST_CASE("the two-mode squeezed vacuum has elements (1 - l^2) l^(n+n') and ledger l^(2(N+1))") {
-  // Closed form, PHYSICS.md §1.2 (S2(r)|0,0> = sqrt(1 - l^2) sum l^n |n,n>, l = tanh r).
+  // Closed form, docs/physics.md §1.2 (S2(r)|0,0> = sqrt(1 - l^2) sum l^n |n,n>, l = tanh r).
   const double r = 0.5, l = std::tanh(r);
   const auto s = sector_tmsv(r, 12);
-  CHECK(s.get(0, 0, 0, 0) == doctest::Approx(0.7864477330).epsilon(1e-10));  // PHYSICS.md §1.2 [C]
+  CHECK(s.get(0, 0, 0, 0) == doctest::Approx(0.7864477330).epsilon(1e-10));  // docs/physics.md §1.2
   CHECK(s.get(1, 1, 1, 1) == doctest::Approx(0.1679476963).epsilon(1e-10));
   for (int n = 0; n <= 12; ++n)
     for (int m = 0; m <= 12; ++m)
@@ -74,15 +74,15 @@ TEST_CASE("the two-mode squeezed vacuum has elements (1 - l^2) l^(n+n') and ledg
   CHECK(s.get(1, 0, 1, 0) == 0.0);
   CHECK(s.truncation_loss() == doctest::Approx(std::pow(l, 26)).epsilon(1e-13));
   CHECK(std::abs(s.trace() + s.truncation_loss() - 1.0) < 1e-15);
-  // r = 1, d = 40 levels: deficit 3.451e-10 (PHYSICS.md §1.2 [C]; closed form tanh(1)^80).
+  // r = 1, d = 40 levels: deficit 3.451e-10 (docs/physics.md §1.2; closed form tanh(1)^80).
   CHECK(sector_tmsv(1.0, 39).truncation_loss() == doctest::Approx(3.451e-10).epsilon(1e-3));
-  // The general closed form reproduces the TMSV (s_A = s_B = 0, t = l; PHYSICS.md §3.1).
+  // The general closed form reproduces the TMSV (s_A = s_B = 0, t = l; docs/physics.md §3.1).
   const auto g = sector_state(gaussian::tmst(r, 0.0), 12);
   CHECK(max_abs_difference(g, s, 12) < 1e-15);
 }
 
 TEST_CASE("the Gaussian closed form reproduces the TMST element table of the reference sheet") {
-  // PHYSICS.md §1.2 check values (r = 0.5, n_th = 0.1) [C: an independent brute-force check].
+  // docs/physics.md §1.2 check values (r = 0.5, n_th = 0.1) (an independent brute-force check).
   const auto s = sector_state(gaussian::tmst(0.5, 0.1), 10);
   CHECK(std::abs(s.get(0, 0, 0, 0) - 0.651105937567) < 1e-12);
   CHECK(std::abs(s.get(1, 0, 1, 0) - 0.046633283613) < 1e-12);
@@ -136,7 +136,7 @@ TEST_CASE("the closed form at cutoff 150 stays finite, positive on the diagonal,
   }
   CHECK(finite);
   CHECK(diagonal_positive);
-  // Trace deficit by an independent route (generating function, PHYSICS.md §3.1).
+  // Trace deficit by an independent route (generating function, docs/physics.md §3.2).
   CHECK(s.truncation_loss() == doctest::Approx(gaussian_trace_deficit(form, 150)).epsilon(1e-8));
 }
 
@@ -154,7 +154,7 @@ TEST_CASE("the trace deficit from the generating function agrees with 1 - trace 
       CHECK(std::abs(by_series - by_sum) < 1e-13 + 1e-11 * by_sum);
     }
   }
-  // TMSV: deficit l^{2(N+1)} (closed form, PHYSICS.md §1.2), kept to relative 1e-12 down to 1e-200.
+  // TMSV: deficit l^{2(N+1)} (closed form, docs/physics.md §1.2), kept to relative 1e-12 down to 1e-200.
   for (double r : {0.3, 1.0, 2.0})
     for (int n : {5, 40, 150}) {
       const double l = std::tanh(r);
@@ -247,7 +247,7 @@ TEST_CASE("the amplifier maps the mean photon number to G<n> + G - 1 and loss to
 TEST_CASE("the thermal-loss channel through Kraus operators equals the closed form after the channel") {
   // Two algorithms: Kraus route (loss tau/G then amplifier G, Ivan, Sabapathy & Simon,
   // PRA 84, 042311 (2011)) on the truncated TMST vs the closed form of the output CM
-  // (PHYSICS.md §3.3 check: tau = 0.7, n_E = 0.3 on B agrees to 2.2e-16 [C]).
+  // (docs/physics.md §3.3 check: tau = 0.7, n_E = 0.3 on B agrees to 2.2e-16).
   const auto in = gaussian::tmst(0.5, 0.1);
   const link::Channel ch{0.7, 0.3};
   const int cutoff = 70;  // low indices are unaffected by the truncation at this cutoff
@@ -280,7 +280,7 @@ TEST_CASE("trace plus ledger stays one after trace-preserving channels on random
 
 TEST_CASE("states stay positive and keep the U(1) pattern after channels") {
   // Positivity of rho after CP maps; the dense engine, which does not assume the symmetry,
-  // produces no element outside the d-blocks (PHYSICS.md §3.4).
+  // produces no element outside the d-blocks (docs/physics.md §3.4).
   std::mt19937 rng(11);
   std::uniform_real_distribution<double> u01(0.0, 1.0);
   for (int trial = 0; trial < 6; ++trial) {

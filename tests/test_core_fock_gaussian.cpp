@@ -31,8 +31,8 @@ int test_cutoff(const gaussian::StandardForm& form) {
 
 TEST_CASE("Fock states from the closed form and from Kraus channels match the Gaussian measures") {
   // Gaussian closed forms: E_N and N from the smallest symplectic eigenvalue of the partial
-  // transpose (Vidal & Werner, PRA 65, 032314 (2002)), F = 2/(2 + a + b - 2c) (PHYSICS.md §7.4).
-  // Route (a): closed form of the output CM (PHYSICS.md §3.1). Route (b): closed form of the
+  // transpose (Vidal & Werner, PRA 65, 032314 (2002)), F = 2/(2 + a + b - 2c) (docs/physics.md §7.4).
+  // Route (a): closed form of the output CM (docs/physics.md §3.1). Route (b): closed form of the
   // TMST, then the thermal-loss Kraus channels on each mode (§3.3). Fixed seed.
   std::mt19937 rng(20250611);
   std::uniform_real_distribution<double> u(0.0, 1.0);
@@ -85,7 +85,7 @@ TEST_CASE("Fock states from the closed form and from Kraus channels match the Ga
 
 TEST_CASE("the entanglement-breaking threshold of a 300 K environment is reproduced in Fock space") {
   // TMSV with thermal loss on one mode: E_N > 0 iff n_E < tau / (1 - tau), independent of r
-  // (PHYSICS.md §2.5 [C]; closed form from the symplectic spectrum).
+  // (docs/physics.md §2.5; closed form from the symplectic spectrum).
   const double n_e = 1250.0, threshold = n_e / (n_e + 1.0);
   for (double r : {0.3, 0.6}) {
     auto below = sector_tmsv(r, 40);
@@ -98,7 +98,7 @@ TEST_CASE("the entanglement-breaking threshold of a 300 K environment is reprodu
 }
 
 TEST_CASE("the automatic cutoff is the smallest one whose trace deficit is below the tolerance") {
-  // TMSV: deficit tanh(r)^{2(N+1)} (closed form, PHYSICS.md §1.2), so N = ceil(ln tol / (2 ln l)) - 1.
+  // TMSV: deficit tanh(r)^{2(N+1)} (closed form, docs/physics.md §1.2), so N = ceil(ln tol / (2 ln l)) - 1.
   for (double r : {0.3, 1.0, 1.5})
     for (double tol : {1e-6, 1e-10, 1e-14}) {
       const double l = std::tanh(r);

@@ -20,7 +20,7 @@ TEST_CASE("TMSV log-negativity equals 2r / ln 2 and negativity (e^{2r} - 1)/2") 
     CHECK(log_negativity(s) == Approx(2.0 * r / std::log(2.0)).epsilon(budget));
     CHECK(negativity(s) == Approx((std::exp(2.0 * r) - 1.0) / 2.0).epsilon(budget));
   }
-  // PHYSICS.md §6.3 check values (computed): r = 0.5 -> 1.4426950409, N = 0.8591409142.
+  // docs/physics.md §6.3 check values (computed): r = 0.5 -> 1.4426950409, N = 0.8591409142.
   CHECK(log_negativity(tmst(0.5, 0.0)) == Approx(1.4426950409).epsilon(1e-10));
   CHECK(negativity(tmst(0.5, 0.0)) == Approx(0.8591409142).epsilon(1e-10));
 }
@@ -39,7 +39,7 @@ TEST_CASE("a product of vacua teleports at the classical bound of one half") {
 }
 
 TEST_CASE("thermal loss on a TMST reproduces the sheet's standard form, E_N and fidelity") {
-  // PHYSICS.md §6.3 / §7.4 (computed check values): TMST r = 0.5, n_th = 0.02, loss (0.9, 0.1) on B.
+  // docs/physics.md §6.3 / §7.4 (computed check values): TMST r = 0.5, n_th = 0.02, loss (0.9, 0.1) on B.
   const StandardForm s = apply(tmst(0.5, 0.02), Mode::B, {0.9, 0.1});
   CHECK(s.a == Approx(1.6048038602).epsilon(1e-10));
   CHECK(s.b == Approx(1.5643234742).epsilon(1e-10));
@@ -47,7 +47,7 @@ TEST_CASE("thermal loss on a TMST reproduces the sheet's standard form, E_N and 
   CHECK(log_negativity(s) == Approx(1.2348131414).epsilon(1e-10));
   CHECK(negativity(s) == Approx(0.6767543135).epsilon(1e-10));
   CHECK(fidelity(s) == Approx(0.7017178606).epsilon(1e-10));
-  // Closed form of the one-sided fidelity, PHYSICS.md §7.4.
+  // Closed form of the one-sided fidelity, docs/physics.md §7.4.
   const double r = 0.5, n = 0.02, tau = 0.9, ne = 0.1;
   const double f = 2.0 / (2.0 + (2 * n + 1) * ((1 + tau) * std::cosh(2 * r) - 2 * std::sqrt(tau) * std::sinh(2 * r)) +
                           (1 - tau) * (2 * ne + 1));
@@ -62,7 +62,7 @@ TEST_CASE("the general-covariance formulas agree with the standard-form ones") {
 }
 
 TEST_CASE("entanglement under one-sided thermal loss dies at n_E = tau / (1 - tau) whatever the squeezing") {
-  // PHYSICS.md §2.5 (closed form): (a-1)(b-1) < c^2 <=> n_E < tau/(1-tau) for a TMSV.
+  // docs/physics.md §2.5 (closed form): (a-1)(b-1) < c^2 <=> n_E < tau/(1-tau) for a TMSV.
   const double tau = 0.99;
   const double threshold = tau / (1.0 - tau);
   for (double r : {0.5, 1.0, 2.0}) {
@@ -80,7 +80,7 @@ TEST_CASE("the PLOB bound of a pure-loss channel is -log2(1 - tau)") {
 }
 
 TEST_CASE("thermal-loss capacity bounds reproduce the sheet's table and vanish when entanglement breaking") {
-  // PHYSICS.md §8 table (computed; thermal-loss formulas from memory of PLOB 2017 and RCI 2009).
+  // docs/physics.md §8 table (computed; thermal-loss formulas from memory of PLOB 2017 and RCI 2009).
   struct Row { double tau, n, plob, rci; };
   for (const Row& row : {Row{0.5, 0.1, 0.616553, 0.516553}, Row{0.9, 1.0, 1.473931, 1.321928},
                          Row{0.9999, 1250.0, 1.737074, 1.556728}, Row{0.99995, 1249.7, 2.647223, 2.557074}}) {
@@ -92,7 +92,7 @@ TEST_CASE("thermal-loss capacity bounds reproduce the sheet's table and vanish w
 }
 
 TEST_CASE("Gaussian entanglement swapping of two TMSVs gives tanh r' = tanh^2 r") {
-  // van Loock & Braunstein, PRA 61, 010302(R) (2000); conditional CM of PHYSICS.md §9 (computed values).
+  // van Loock & Braunstein, PRA 61, 010302(R) (2000); conditional CM of docs/physics.md §9 (computed values).
   const StandardForm out = swap(tmst(0.5, 0.0), tmst(0.5, 0.0));
   CHECK(out.a == Approx(1.0955674542).epsilon(1e-10));
   CHECK(out.c == Approx(0.4475131806).epsilon(1e-10));
@@ -107,7 +107,7 @@ TEST_CASE("Gaussian entanglement swapping of two TMSVs gives tanh r' = tanh^2 r"
 }
 
 TEST_CASE("the crossing finder locates the one-sided survival distance of a closed form") {
-  // PHYSICS.md §2.6 (closed form): L_max = ln((n+1)/n) / mu for a TMSV sent one way.
+  // docs/physics.md §2.6 (closed form): L_max = ln((n+1)/n) / mu for a TMSV sent one way.
   const double mu = 2.006e-6, n = 1249.697;
   auto signed_en = [&](double L) {
     return -std::log2(smallest_pt_symplectic(apply(tmst(1.0, 0.0), Mode::B, {std::exp(-mu * L), n})));

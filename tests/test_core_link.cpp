@@ -70,7 +70,7 @@ TEST_CASE("Planck occupation at 5 GHz and 300 K is 1249.697 photons") {
 
 TEST_CASE("Planck occupations match the closed form with the SI-exact constants") {
   // Computed from the SI-exact h = 6.62607015e-34 J s, k_B = 1.380649e-23 J/K in the closed form
-  // x = hf/(k_B T), n = 1/(e^x - 1) (values as tabulated in PHYSICS.md §2.4, printed digits).
+  // x = hf/(k_B T), n = 1/(e^x - 1) (values as tabulated in docs/physics.md §2.4, printed digits).
   struct Row {
     double f, t, x;
     int x_digits;
@@ -142,7 +142,7 @@ TEST_CASE("Gaseous attenuation reproduces the ITU-R P.676-13 validation examples
 }
 
 TEST_CASE("Gaseous attenuation at 5 GHz matches an independent line-by-line computation") {
-  // Independent computation (numpy implementation of the same Recommendation, PHYSICS.md §12.1,
+  // Independent computation (numpy implementation of the same Recommendation, docs/physics.md §12.1,
   // printed to 5 significant digits): gamma_o = 0.0074004, gamma_w = 0.0013135 dB/km with
   // 1013.25 hPa as dry pressure, and a total of 0.00856 dB/km with 1013.25 hPa as total pressure.
   const double t = 288.15;
@@ -257,7 +257,7 @@ TEST_CASE("Goubau coupling at tau = 1 is 1 - 1/e") {
 
 TEST_CASE("Two thermal-loss channels in sequence equal the composed channel") {
   // Closed form tau = tau1 tau2, n = [tau2 (1 - tau1) n1 + (1 - tau2) n2]/(1 - tau1 tau2);
-  // example 0.9/0.01 then 0.95/1250 -> tau = 0.855, n = 431.0410344828 (PHYSICS.md §2.2,
+  // example 0.9/0.01 then 0.95/1250 -> tau = 0.855, n = 431.0410344828 (docs/physics.md §2.2,
   // independent numpy check).
   const Channel first{0.9, 0.01}, second{0.95, 1250.0};
   const Channel both = compose(first, second);
@@ -295,7 +295,7 @@ TEST_CASE("Composition is associative, has the identity as unit, and identities 
 
 TEST_CASE(
     "One-sided thermal loss breaks entanglement at n_E = tau/(1-tau) whatever the squeezing") {
-  // Closed form (PHYSICS.md §2.5): a TMSV with thermal loss on one mode is entangled iff
+  // Closed form (docs/physics.md §2.5): a TMSV with thermal loss on one mode is entangled iff
   // n_E < tau/(1 - tau), i.e. tau > n_E/(n_E + 1), independent of r.
   for (double n_env : {1249.697, 1.0}) {
     const double tau_c = n_env / (n_env + 1.0);
@@ -316,7 +316,7 @@ TEST_CASE(
 TEST_CASE("Log-negativity and fidelity versus distance reproduce the tabulated values") {
   // TMST r = 1, n_th = 0.01; air at 300 K (n = 1249.697 at 5 GHz), fixed 0.00871 dB/km
   // (mu = 2.00555e-6 1/m, the table's "2.006e-6" rounded; with mu = 2.006e-6 exactly the
-  // table is missed by up to 2.7e-4), no antenna. Table of PHYSICS.md §2.6 (independent numpy
+  // table is missed by up to 2.7e-4), no antenna. Table of docs/physics.md §2.6 (independent numpy
   // computation from the closed forms E_N = -log2 nu~_- and F = 2/(2 + a + b - 2c)), printed
   // with 6 decimals.
   struct Row {
@@ -369,7 +369,7 @@ TEST_CASE("Log-negativity and fidelity versus distance match the mpmath referenc
 }
 
 TEST_CASE("Entanglement of a TMSV vanishes at the closed-form maximum distances") {
-  // Closed forms (PHYSICS.md §2.6): one-way L_max = ln((n + 1)/n)/mu = 398.83 m; midpoint
+  // Closed forms (docs/physics.md §2.6): one-way L_max = ln((n + 1)/n)/mu = 398.83 m; midpoint
   // L_max = -(2/mu) ln(1 - x), x = (1 - e^{-2r})/(2n + 1 - e^{-2r}): 252.18, 344.93, 379.05 m for
   // r = 0.5, 1, 1.5 (mu from 0.00871 dB/km, n = 1249.697).
   const double mu = per_metre_from_db_per_km(0.00871);
@@ -507,7 +507,7 @@ TEST_CASE("Without an antenna the air path has no beam and no interface loss") {
 }
 
 TEST_CASE("Barometric pressure is split into dry air and water vapour for the ITU model") {
-  // PHYSICS.md §12.1: 5 GHz, 1013.25 hPa total, 288.15 K, 7.5 g/m^3 -> 0.00856 dB/km
+  // docs/physics.md §12.1: 5 GHz, 1013.25 hPa total, 288.15 K, 7.5 g/m^3 -> 0.00856 dB/km
   // (independent computation, 3 significant digits); the link uses p_dry = p_total - e.
   LinkModel m;
   const auto b = link_budget(m, 1000.0).b;

@@ -60,7 +60,7 @@ double displacement_closed_form(int m, int n, double a) {
 
 TEST_CASE("the two-mode squeezed vacuum has log-negativity 2r/ln2 and negativity (e^(2r)-1)/2") {
   // Vidal & Werner, PRA 65, 032314 (2002): TMSV E_N = 2r / ln 2 (closed form);
-  // r = 0.5 -> 1.4426950409, N = 0.8591409142 (PHYSICS.md §6.3).
+  // r = 0.5 -> 1.4426950409, N = 0.8591409142 (docs/physics.md §6.3).
   for (double r : {0.2, 0.5, 1.0}) {
     const auto s = sector_tmsv(r, r < 0.9 ? 60 : 110);
     const auto e = entanglement(s);
@@ -74,7 +74,7 @@ TEST_CASE("the two-mode squeezed vacuum has log-negativity 2r/ln2 and negativity
 
 TEST_CASE("the two-mode squeezed vacuum teleports coherent states with fidelity 1/(1+e^(-2r))") {
   // Braunstein & Kimble, PRL 80, 869 (1998): F = 1 / (1 + e^{-2r}) (closed form); r = 0.5 ->
-  // 0.7310585786, r = 1 -> 0.8807970780 (PHYSICS.md §7.4).
+  // 0.7310585786, r = 1 -> 0.8807970780 (docs/physics.md §7.4).
   measures::Workspace work;
   for (double r : {0.3, 0.5, 1.0}) {
     const auto s = sector_tmsv(r, r < 0.9 ? 60 : 110);
@@ -98,7 +98,7 @@ TEST_CASE("the product vacuum gives exactly the classical fidelity 1/2 and no en
 }
 
 TEST_CASE("the EPR operator elements match the reference sheet and an mpmath radial integral") {
-  // PHYSICS.md §7.2 check values [C]: O_{00,00} = 1/2, O_{11,11} = O_{00,11} = O_{10,10} = 1/4,
+  // docs/physics.md §7.2 check values (computed): O_{00,00} = 1/2, O_{11,11} = O_{00,11} = O_{10,10} = 1/4,
   // O_{22,22} = O_{11,22} = 3/16.
   CHECK(epr_operator_element(0, 0, 0, 0) == doctest::Approx(0.5).epsilon(1e-15));
   CHECK(epr_operator_element(1, 1, 1, 1) == doctest::Approx(0.25).epsilon(1e-15));
@@ -130,7 +130,7 @@ TEST_CASE("the EPR operator elements match the reference sheet and an mpmath rad
 
 TEST_CASE("Fock measures reproduce the Gaussian check values of the reference sheet") {
   // TMST r = 0.5, n_th = 0.02, thermal loss (0.9, 0.1) on B: E_N = 1.2348131414,
-  // N = 0.6767543135 (PHYSICS.md §6.3 [C]), F = 0.7017178606 (§7.4 [C]); also against the
+  // N = 0.6767543135 (docs/physics.md §6.3), F = 0.7017178606 (§7.4); also against the
   // Gaussian closed forms (Vidal & Werner 2002 with the symplectic spectrum; F = 2/(2+a+b-2c)).
   const auto in = gaussian::tmst(0.5, 0.02);
   const link::Channel ch{0.9, 0.1};
@@ -151,7 +151,7 @@ TEST_CASE("Fock measures reproduce the Gaussian check values of the reference sh
 }
 
 TEST_CASE("the ideal photon-subtracted TMSV has the closed-form entanglement and fidelity") {
-  // Schmidt state c_n ∝ (n + 1) x^n, x = tanh 0.5 (PHYSICS.md §4.4, §6.1, §7.2, derived closed
+  // Schmidt state c_n ∝ (n + 1) x^n, x = tanh 0.5 (docs/physics.md §4.4, §6.1, §7.2, derived closed
   // forms): ||rho^{T_B}||_1 = (sum c_n)^2 -> E_N = log2[(1+x)^3 / ((1+x^2)(1-x))] = 2.2595766288,
   // N = 1.8942546916; F = (1+x)^3 (2 - 2x + x^2) / (4 (1 + x^2)) = 0.8302102152.
   const double x = std::tanh(0.5);
@@ -251,7 +251,7 @@ TEST_CASE("the Gauss-Laguerre rule integrates e^(-x) x^k exactly up to degree 2n
 }
 
 TEST_CASE("the EPR-operator and radial fidelities agree on random mixed states") {
-  // Two algorithms for the same integral (PHYSICS.md §7.2 vs §7.3).
+  // Two algorithms for the same integral (docs/physics.md §7.2 vs §7.3).
   std::mt19937 rng(314159);
   measures::Workspace work;
   double worst = 0.0;
@@ -284,7 +284,7 @@ TEST_CASE("both fidelity routes stay finite and agree at cutoff 150") {
   CHECK(std::isfinite(f_epr));
   CHECK(std::isfinite(f_rad));
   CHECK(std::abs(f_epr - f_rad) < 1e-10);
-  // Closed form F = 2/(2 + a + b - 2c) (PHYSICS.md §7.4), up to the truncation deficit.
+  // Closed form F = 2/(2 + a + b - 2c) (docs/physics.md §7.4), up to the truncation deficit.
   CHECK(std::abs(f_epr - gaussian::fidelity(form)) < 1e-8 + 2 * s.truncation_loss());
 }
 

@@ -244,7 +244,7 @@ TEST_CASE("one and two threads give identical datasets") {
 }
 
 TEST_CASE("the verdict refines the fidelity-1/2 distance between grid points to the closed-form root") {
-  // Closed form (PHYSICS.md §7.4): F = 2 / (2 + a + b - 2c) for the standard form; F = 1/2 where
+  // Closed form (docs/physics.md §7.4): F = 2 / (2 + a + b - 2c) for the standard form; F = 1/2 where
   // a + b - 2c = 2. The root is found here with Boost's bracketing solver on the Gaussian layer,
   // and the verdict must find it from the Fock evaluations of the "bare" protocol on a 20 m grid.
   const scenario::Scenario sc = scenario::parse(small_scenario, "small.toml");
@@ -279,7 +279,7 @@ TEST_CASE("the verdict refines the fidelity-1/2 distance between grid points to 
 }
 
 TEST_CASE("the midpoint relay baseline is Gaussian swapping of two pairs over half the distance") {
-  // PHYSICS.md §9 (derived; van Loock & Braunstein, PRA 61, 010302(R) (2000)): an ideal CV Bell
+  // docs/physics.md §9 (derived; van Loock & Braunstein, PRA 61, 010302(R) (2000)): an ideal CV Bell
   // measurement on B1, B2 leaves (A1, A2) in standard form with a' = a - c^2/(2b), c' = c^2/(2b)
   // for identical pairs (a, b, c). Here each pair is the TMST through a cold line of length d/2.
   const scenario::Scenario sc = scenario::parse(small_scenario, "small.toml");
@@ -293,7 +293,7 @@ TEST_CASE("the midpoint relay baseline is Gaussian swapping of two pairs over ha
   CHECK(relay.a == doctest::Approx(a - c * c / (2 * b)).epsilon(1e-12));
   CHECK(relay.b == doctest::Approx(a - c * c / (2 * b)).epsilon(1e-12));
   CHECK(relay.c == doctest::Approx(c * c / (2 * b)).epsilon(1e-12));
-  // Identical TMSVs without loss: tanh r' = tanh^2 r (PHYSICS.md §9).
+  // Identical TMSVs without loss: tanh r' = tanh^2 r (docs/physics.md §9).
   std::string lossless = small_scenario;
   lossless.replace(lossless.find("loss_db_per_m = 0.01"), 20, "loss_db_per_m = 0.00");
   lossless.replace(lossless.find("thermal_photons = 0.01"), 22, "thermal_photons = 0.00");
@@ -316,7 +316,7 @@ TEST_CASE("the midpoint relay baseline is Gaussian swapping of two pairs over ha
 TEST_CASE("the detector trade map's break-even lies between point evaluations of opposite sign") {
   // Common practice for contour maps: the zero of the E_N gain interpolated between two grid cells
   // must separate fresh evaluations taken just inside each side (the gain falls monotonically with
-  // the dark rate: dark counts herald unsubtracted states, PHYSICS.md §10 pitfall 7).
+  // the dark rate: dark counts herald unsubtracted states, docs/physics.md §10 item 7).
   const char* text = R"(
 title = "trade map test"
 [source]

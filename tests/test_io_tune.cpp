@@ -68,7 +68,7 @@ TEST_CASE("tuning the squeezing of a bare pure-loss link for fidelity finds the 
 
   // Closed form: F = 2 / (2 + a + b - 2c), a = cosh 2r, b = tau cosh 2r + 1 - tau,
   // c = sqrt(tau) sinh 2r (Braunstein & Kimble, PRL 80, 869 (1998); standard-form expression of
-  // PHYSICS.md §7.4). d(a + b - 2c)/dr = 0 gives tanh 2r* = 2 sqrt(tau) / (1 + tau).
+  // docs/physics.md §7.4). d(a + b - 2c)/dr = 0 gives tanh 2r* = 2 sqrt(tau) / (1 + tau).
   const double r_star = 0.5 * std::atanh(2.0 * std::sqrt(tau) / (1.0 + tau));
   const double db_star = squeezing_db_from_parameter(r_star);
   CHECK(db_star == doctest::Approx(7.66).epsilon(1e-3));

@@ -16,7 +16,7 @@ enum class Mode { A, B };
 inline const char* to_string(Mode m) { return m == Mode::A ? "a" : "b"; }
 
 /// Squeezing parameter r from the squeezing in dB, S_dB = 10 log10(e^{2r}) (convention of
-/// PHYSICS.md §1.1: the squeezing parameter, not the noisy EPR variance).
+/// docs/physics.md §1.1: the squeezing parameter, not the noisy EPR variance).
 inline double squeezing_parameter_from_db(double db) { return db * std::numbers::ln10 / 20.0; }
 inline double squeezing_db_from_parameter(double r) { return r * 20.0 / std::numbers::ln10; }
 

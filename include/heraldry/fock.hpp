@@ -1,7 +1,7 @@
 // The truncated Fock-space engine: two-mode density matrices that keep the U(1) symmetry
 // (blocks of fixed d = n_a - n_b), one-mode Kraus operations, and the Gaussian-to-Fock closed
 // form. DenseState is the plain reference representation with the same operations.
-// Conventions: PHYSICS.md §0 and §3; per-mode cutoff N means photon numbers 0..N.
+// Conventions: docs/physics.md §0 and §3; per-mode cutoff N means photon numbers 0..N.
 //
 // The truncation ledger. Every state carries `truncation_loss()`: the sum of every probability
 // weight that was dropped because it would have landed above the cutoff (by construction from a
@@ -137,7 +137,7 @@ Eigen::VectorXd photon_distribution(const DenseState& s, Mode mode);
 
 // ---------------------------------------------------------------- Gaussian states -> Fock
 
-/// The standard-form Gaussian state truncated at cutoff N, by the closed form of PHYSICS.md §3.1
+/// The standard-form Gaussian state truncated at cutoff N, by the closed form of docs/physics.md §3.1
 /// (Husimi-function expansion; every term is non-negative, each evaluated in log space, so no
 /// cancellation and no overflow at N = 150 and beyond). Cost O(N^4) multiplications, O(N^3)
 /// exponentials. Ledger = max(0, 1 - trace). Requires gaussian::is_physical(form) and c >= 0
@@ -145,14 +145,14 @@ Eigen::VectorXd photon_distribution(const DenseState& s, Mode mode);
 SectorState sector_state(const gaussian::StandardForm& form, int cutoff);
 DenseState dense_state(const gaussian::StandardForm& form, int cutoff);
 
-/// Two-mode squeezed vacuum sqrt(1 - l^2) sum_n l^n |n, n>, l = tanh r >= 0 (PHYSICS.md §1.2):
+/// Two-mode squeezed vacuum sqrt(1 - l^2) sum_n l^n |n, n>, l = tanh r >= 0 (docs/physics.md §1.2):
 /// rho_{(n,n),(n',n')} = (1 - l^2) l^{n + n'}; ledger = l^{2(N+1)} (closed form).
 SectorState sector_tmsv(double r, int cutoff);
 DenseState dense_tmsv(double r, int cutoff);
 
 /// 1 - Tr(rho truncated at N) for the Gaussian state, without building it:
 /// P(n_a > N) + P(n_a <= N, n_b > N), the first a thermal tail ((a-1)/(a+1))^{N+1}, the second
-/// read off the generating function G(y, z) of PHYSICS.md §3.1 as a power series with
+/// read off the generating function G(y, z) of docs/physics.md §3.2 as a power series with
 /// non-negative coefficients only (so it keeps its relative accuracy for tiny deficits).
 /// Cost O(N^2 log N).
 double gaussian_trace_deficit(const gaussian::StandardForm& form, int cutoff);
@@ -177,7 +177,7 @@ private:
   double limit_bytes_;
 };
 
-/// Smallest N with gaussian_trace_deficit(form, N) < tolerance (PHYSICS.md §3.5), found by
+/// Smallest N with gaussian_trace_deficit(form, N) < tolerance (docs/physics.md §3.5), found by
 /// bisection between the marginal bounds max(q_A, q_B)^{N+1} <= deficit <= q_A^{N+1} + q_B^{N+1}.
 /// Throws CutoffError naming that N and its memory when memory_bytes_for(engine, N) exceeds
 /// max_memory_bytes (for hopeless states, needing N > 4096, the lower bound is named at once
@@ -187,14 +187,14 @@ int auto_cutoff_gaussian(const gaussian::StandardForm& form, double tolerance, E
 
 // ---------------------------------------------------------------- operations
 
-/// Kraus operators of the pure-loss channel of transmissivity tau in [0, 1] (PHYSICS.md §3.3):
+/// Kraus operators of the pure-loss channel of transmissivity tau in [0, 1] (docs/physics.md §3.3):
 /// A_k |n> = sqrt(C(n,k) tau^{n-k} (1-tau)^k) |n-k>, k = 0..N, shift -k (0^0 = 1). Complete on
 /// n <= N: sum_k A_k^T A_k = I. Operators that vanish identically (tau = 1: k >= 1) are left out.
 /// Coefficients here and in amplifier() are evaluated in log space (lgamma): no factorial or
 /// binomial overflows at N = 150 and beyond.
 Operation pure_loss(double tau, int cutoff);
 
-/// Kraus operators of the quantum-limited amplifier of gain G >= 1 (PHYSICS.md §3.3):
+/// Kraus operators of the quantum-limited amplifier of gain G >= 1 (docs/physics.md §3.3):
 /// B_k |n> = sqrt(C(n+k,k) G^{-(n+1)} (1-1/G)^k) |n+k>, k = 0..N. The operators k > N send every
 /// input above the cutoff; they are lumped into one last operator of shift N+1 whose coefficient
 /// is sqrt(sum_{k>N} |B_k(n)|^2) (a negative-binomial tail, regularised incomplete beta
@@ -230,7 +230,7 @@ void apply(SectorState& state, Mode mode, const Operation& op);
 void apply(DenseState& state, Mode mode, const Operation& op);
 
 /// The thermal-loss channel (tau, n_E) on one mode: pure loss of transmissivity tau/G followed by
-/// the amplifier of gain G = 1 + (1 - tau) n_E (PHYSICS.md §3.3 and pitfall 5; Ivan, Sabapathy
+/// the amplifier of gain G = 1 + (1 - tau) n_E (docs/physics.md §3.3 and §10 item 5; Ivan, Sabapathy
 /// & Simon, PRA 84, 042311 (2011)). The bath never enters the Fock space, so n_E ~ 1250 costs
 /// nothing extra. std::invalid_argument unless 0 <= tau <= 1 and n_E >= 0.
 void apply_channel(SectorState& state, Mode mode, const link::Channel& channel, Workspace& work);

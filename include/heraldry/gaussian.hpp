@@ -1,6 +1,6 @@
 // Gaussian layer: phase-insensitive two-mode Gaussian states in standard form, thermal-loss
 // channels on the covariance matrix, and their closed-form figures of merit.
-// Shot-noise units (vacuum quadrature variance 1), x = a + a^dagger (PHYSICS.md §0).
+// Shot-noise units (vacuum quadrature variance 1), x = a + a^dagger (docs/physics.md §0).
 #pragma once
 
 #include <string>
@@ -21,7 +21,7 @@ struct StandardForm {
 
 using Covariance = Eigen::Matrix4d;  // quadrature order (x_A, p_A, x_B, p_B)
 
-/// Two-mode squeezed thermal state: S2(r) (th(n) x th(n)) S2(r)^dagger, PHYSICS.md §1.1:
+/// Two-mode squeezed thermal state: S2(r) (th(n) x th(n)) S2(r)^dagger, docs/physics.md §1.1:
 /// a = b = (2n + 1) cosh 2r, c = (2n + 1) sinh 2r.
 StandardForm tmst(double r, double thermal_photons);
 
@@ -38,7 +38,7 @@ Covariance covariance(const StandardForm& s);
 bool is_physical(const StandardForm& s, double slack = 1e-12);
 
 /// Smallest symplectic eigenvalue of the partially transposed CM (standard form,
-/// PHYSICS.md §6.2): [a + b - sqrt((a - b)^2 + 4 c^2)] / 2.
+/// docs/physics.md §6.2): [a + b - sqrt((a - b)^2 + 4 c^2)] / 2.
 double smallest_pt_symplectic(const StandardForm& s);
 /// Same, for a general two-mode CM (Adesso & Illuminati, PRA 72, 032334 (2005)).
 double smallest_pt_symplectic(const Covariance& v);
@@ -49,12 +49,12 @@ double log_negativity(const StandardForm& s);
 double negativity(const StandardForm& s);
 
 /// Braunstein-Kimble unit-gain teleportation fidelity for coherent inputs with this resource,
-/// F = 2 / (2 + a + b - 2c) (PHYSICS.md §7.4).
+/// F = 2 / (2 + a + b - 2c) (docs/physics.md §7.4).
 double fidelity(const StandardForm& s);
 /// General zero-mean CM: F = 2 / sqrt(det(2 I + Sigma)), Sigma the CM of (x_A - x_B, p_A + p_B).
 double fidelity(const Covariance& v);
 
-/// Two-way assisted capacity bounds of a thermal-loss channel, ebits per use (PHYSICS.md §8):
+/// Two-way assisted capacity bounds of a thermal-loss channel, ebits per use (docs/physics.md §8):
 /// PLOB upper bound (Pirandola et al., Nat. Commun. 8, 15043 (2017)) and the reverse coherent
 /// information lower bound (Pirandola et al., PRL 102, 050503 (2009)); both 0 when
 /// entanglement breaking (n_E >= tau / (1 - tau)).
@@ -62,7 +62,7 @@ double plob_bound(const link::Channel& channel);
 double rci_bound(const link::Channel& channel);
 
 /// Entanglement swapping of two standard-form pairs by an ideal CV Bell measurement on their
-/// B modes; returns the conditional state of (A1, A2) (PHYSICS.md §9).
+/// B modes; returns the conditional state of (A1, A2) (docs/physics.md §9).
 StandardForm swap(const StandardForm& first, const StandardForm& second);
 
 // ------------------------------------------------------------------ the source as measured

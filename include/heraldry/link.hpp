@@ -22,7 +22,7 @@ struct Channel {
   double bath_photons = 0.0;
 };
 
-/// `first` followed by `second`, as one channel (PHYSICS.md §2.2):
+/// `first` followed by `second`, as one channel (docs/physics.md §2.2):
 /// tau = tau1 tau2, n = [tau2 (1 - tau1) n1 + (1 - tau2) n2] / (1 - tau1 tau2).
 /// Two identity channels (tau1 = tau2 = 1) compose to the identity {1, 0}.
 Channel compose(const Channel& first, const Channel& second);

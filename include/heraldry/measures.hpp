@@ -43,7 +43,7 @@ private:
   std::unique_ptr<Impl> impl_;
 };
 
-/// Sector engine: rho^{T_B} is block diagonal in s = n_a + n_b of its row index (PHYSICS.md §3.4);
+/// Sector engine: rho^{T_B} is block diagonal in s = n_a + n_b of its row index (docs/physics.md §3.4);
 /// each block (size <= N+1) is filled from the d-blocks and diagonalised (eigenvalues only,
 /// Eigen::SelfAdjointEigenSolver). Cost ~ N^4 / 2 flops. Dense engine: the full partial
 /// transpose and one eigen-solve of size (N+1)^2.
@@ -53,18 +53,18 @@ Entanglement entanglement(const fock::SectorState& state);
 Entanglement entanglement(const fock::DenseState& state);
 
 /// Unit-gain Braunstein-Kimble fidelity for coherent inputs (Braunstein & Kimble, PRL 80, 869
-/// (1998)), Alice holding mode A, Bob mode B, resource with c >= 0 convention (PHYSICS.md §7.1):
+/// (1998)), Alice holding mode A, Bob mode B, resource with c >= 0 convention (docs/physics.md §7.1):
 /// F = (1/pi) int d^2xi e^{-|xi|^2} chi_AB(xi*, xi) (Alice's mode gets xi*, Bob's xi).
 ///
 /// EPR-operator route (the default): F = Tr[rho O], O = exp[-(a^dag - b)(a - b^dag)], whose
-/// elements (PHYSICS.md §7.2) are sums of positive terms, evaluated in log space. O depends only
+/// elements (docs/physics.md §7.2) are sums of positive terms, evaluated in log space. O depends only
 /// on the cutoff; with a Workspace it is built once. Cost O(N^3) per state after that.
 double fidelity_epr(const fock::SectorState& state, Workspace& work);
 double fidelity_epr(const fock::DenseState& state, Workspace& work);
 double fidelity_epr(const fock::SectorState& state);
 double fidelity_epr(const fock::DenseState& state);
 
-/// Radial route (PHYSICS.md §7.3): for a U(1)-symmetric rho, chi_AB(xi*, xi) depends on u = |xi|^2
+/// Radial route (docs/physics.md §7.3): for a U(1)-symmetric rho, chi_AB(xi*, xi) depends on u = |xi|^2
 /// only, and F = int_0^inf du e^{-u} chi(u) = (1/2) sum_i w_i e^{x_i/2} chi(x_i/2) with the
 /// Gauss-Laguerre rule of N+2 nodes (weight e^{-x}). chi(u) e^{u} is a polynomial of degree
 /// <= 2N in u, so the rule is exact. The displacement elements come from the normalised
@@ -84,7 +84,7 @@ double fidelity(const fock::DenseState& state);
 // ---------------------------------------------------------------- building blocks (public, tested)
 
 /// <m, n| O |m', n'> of the EPR operator O = (1/pi) int d^2xi e^{-|xi|^2} D_A(xi*) (x) D_B(xi)
-/// (PHYSICS.md §7.2): 0 unless m - n = m' - n', otherwise
+/// (docs/physics.md §7.2): 0 unless m - n = m' - n', otherwise
 /// 2^{-(m'+n+1)} sqrt(m! n! m'! n'!) sum_p 1 / [(m-p)! (m'-p)! p! (n-m+p)!].
 double epr_operator_element(int m, int n, int mp, int np);
 

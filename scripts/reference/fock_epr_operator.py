@@ -1,7 +1,7 @@
 #!/usr/bin/python3
 """Reference elements of the EPR operator O = (1/pi) int d^2xi e^{-|xi|^2} D_A(xi*) (x) D_B(xi).
 
-Independent of the finite-sum formula under test (PHYSICS.md 7.2): the angular integral gives the
+Independent of the finite-sum formula under test (docs/physics.md §7.2): the angular integral gives the
 U(1) selection rule m - n = m' - n', and the radial one is done numerically,
     <m,n|O|m',n'> = int_0^inf du e^{-u} <m|D(sqrt u)|m'> <n|D(sqrt u)|n'>,
 with the displacement elements in closed form (Cahill & Glauber, Phys. Rev. 177, 1857 (1969)):

@@ -1,4 +1,4 @@
-// Gaussian standard form -> truncated Fock density matrix (PHYSICS.md §3.1), the trace deficit of
+// Gaussian standard form -> truncated Fock density matrix (docs/physics.md §3.1), the trace deficit of
 // that truncation, and the choice of the cutoff (§3.5).
 #include <algorithm>
 #include <climits>
@@ -15,7 +15,7 @@ namespace heraldry::fock {
 
 namespace {
 
-// The Husimi-function parameters of PHYSICS.md §3.1:
+// The Husimi-function parameters of docs/physics.md §3.1:
 // D = (a+1)(b+1) - c^2, s_A = [(a-1)(b+1) - c^2]/D, s_B = [(a+1)(b-1) - c^2]/D, t = 2c/D.
 // s_A, s_B >= 0 exactly when the CM is physical; round-off below 0 is clamped to 0.
 struct Husimi {
@@ -32,7 +32,7 @@ void validate(const gaussian::StandardForm& f) {
   if (!std::isfinite(f.a) || !std::isfinite(f.b) || !std::isfinite(f.c))
     throw std::invalid_argument("heraldry::fock: Gaussian standard form with a non-finite entry");
   if (f.c < 0.0)
-    throw std::invalid_argument("heraldry::fock: standard form needs c >= 0 (PHYSICS.md pitfall 2), got c = " +
+    throw std::invalid_argument("heraldry::fock: standard form needs c >= 0 (docs/physics.md §10 item 2), got c = " +
                                 std::to_string(f.c));
   if (!gaussian::is_physical(f))
     throw std::invalid_argument("heraldry::fock: unphysical standard form (a, b, c) = (" + std::to_string(f.a) +
@@ -60,7 +60,7 @@ Husimi husimi(const gaussian::StandardForm& f) {
 
 double pow_log(int e, double log_x) { return e == 0 ? 0.0 : e * log_x; }
 
-// <mA, mB| rho |nA, nB> for mA - mB = nA - nB (PHYSICS.md §3.1):
+// <mA, mB| rho |nA, nB> for mA - mB = nA - nB (docs/physics.md §3.1):
 // (4/D) sqrt(mA! mB! nA! nB!) sum_j t^{2j-δ} s_A^{mA-j} s_B^{mB-j} / [j! (j-δ)! (mA-j)! (mB-j)!],
 // δ = mA - nA, j = max(0, δ) .. min(mA, mB). Every term is >= 0 and <= the element <= 1.
 // All-positive parameters: the first term in log space, the others by the ratio

@@ -1,5 +1,5 @@
 // One-mode Kraus operations on the two state representations: the loss and amplifier Kraus
-// operators of PHYSICS.md §3.3, the thermal-loss channel built from them, and the kernels that
+// operators of docs/physics.md §3.3, the thermal-loss channel built from them, and the kernels that
 // apply any list of shift operators while keeping the truncation ledger.
 #include <algorithm>
 #include <cmath>
@@ -195,7 +195,7 @@ void apply_channel_impl(State& state, Mode mode, const link::Channel& ch, Worksp
   if (!(n_e >= 0.0) || !std::isfinite(n_e))
     throw std::invalid_argument("heraldry::fock::apply_channel: bath photons must be finite and >= 0, got " +
                                 std::to_string(n_e));
-  // Thermal loss = pure loss (tau / G) THEN amplifier (G), G = 1 + (1 - tau) n_E (pitfall 5).
+  // Thermal loss = pure loss (tau / G) THEN amplifier (G), G = 1 + (1 - tau) n_E (docs/physics.md §10 item 5).
   const double gain = 1.0 + (1.0 - tau) * n_e;
   const double eta = tau / gain;
   if (eta < 1.0) apply(state, mode, pure_loss(eta, state.cutoff()), work);

@@ -195,6 +195,11 @@ void write_settings(H5::H5File& file, const scenario::Scenario& sc) {
     attr(cg, "kind", std::string(c.kind == steps::CounterKind::threshold ? "threshold" : "resolving"));
     attr(cg, "efficiency", c.efficiency.values);
     attr(cg, "dark_per_gate", c.dark_per_gate.values);
+    // One meaning per counter kind (docs/physics.md §4.2), stated beside the value.
+    attr(cg, "dark_per_gate_meaning",
+         std::string(c.kind == steps::CounterKind::threshold
+                         ? "probability that a gate without light clicks (threshold counter)"
+                         : "mean number of Poissonian dark counts in one gate (resolving counter)"));
     if (c.dark_rate_hz) attr(cg, "dark_rate_hz", c.dark_rate_hz->values);
     attr(cg, "gate_s", c.gate_s);
     attr(cg, "reset_s", c.reset_s);

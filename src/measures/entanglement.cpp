@@ -1,4 +1,4 @@
-// Negativity and log-negativity from the spectrum of the partial transpose (PHYSICS.md §6.1).
+// Negativity and log-negativity from the spectrum of the partial transpose (docs/physics.md §6.1).
 #include <algorithm>
 #include <cmath>
 #include <stdexcept>

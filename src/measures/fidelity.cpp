@@ -1,4 +1,4 @@
-// Braunstein-Kimble unit-gain fidelity: the EPR-operator trace (PHYSICS.md §7.2) and the radial
+// Braunstein-Kimble unit-gain fidelity: the EPR-operator trace (docs/physics.md §7.2) and the radial
 // Gauss-Laguerre quadrature of the characteristic function (§7.3), held against each other.
 #include <algorithm>
 #include <cmath>
@@ -16,7 +16,7 @@ namespace {
 
 // <m, n| O |m', n'> with m - n = m' - n' (caller's duty):
 // 2^{-(m'+n+1)} sqrt(m! n! m'! n'!) sum_{p = max(0, m-n)}^{min(m, m')} 1/[(m-p)! (m'-p)! p! (n-m+p)!].
-// The powers of 2 of PHYSICS.md §7.2, 2^{-(j+k+p+q+1)}, add up to 2^{-(m'+n+1)} for every p.
+// The powers of 2 of docs/physics.md §7.2, 2^{-(j+k+p+q+1)}, add up to 2^{-(m'+n+1)} for every p.
 // Positive terms: the first in log space, the rest by their ratio
 // (m-p)(m'-p) / [(p+1)(n-m+p+1)], rescaled, so one exp per element.
 double epr_element(const std::vector<double>& lf, int m, int n, int mp, int np) {
@@ -189,7 +189,7 @@ void Workspace::Impl::size_radial(int cutoff) {
 }
 
 namespace {
-// chi_AB(xi*, xi) at xi = alpha real (then xi* = xi: the pairing of PHYSICS.md §7.1 matters only
+// chi_AB(xi*, xi) at xi = alpha real (then xi* = xi: the pairing of docs/physics.md §7.1 matters only
 // through the U(1) reduction to the radius, which holds for the pairing (xi*, xi)):
 // sum rho_{(m,n),(m',n')} <m'|D(alpha)|m> <n'|D(alpha)|n>.
 double chi_sector(const fock::SectorState& state, const Eigen::MatrixXd& dm) {

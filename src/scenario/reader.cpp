@@ -330,7 +330,7 @@ std::optional<double> Table::number(std::string_view member, const Bounds& b) co
   if (n == nullptr) return std::nullopt;
   if (n->is_array() || n->is_table())
     doc_->fail_at(*n, key(member), b.number_text(),
-                  "this key takes one value: it cannot be swept");
+                  "this key takes one value: it cannot be swept; README \"Sweepable keys\" lists those that can");
   if (!n->is_number()) doc_->fail_at(*n, key(member), b.number_text());
   const double x = n->value<double>().value_or(std::nan(""));
   if (!b.contains(x)) doc_->fail_at(*n, key(member), b.number_text());

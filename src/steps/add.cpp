@@ -1,5 +1,5 @@
 // Step `add`: heralded photon addition. A two-mode squeezer of parameter s couples the mode to
-// a vacuum idler; a counter on the idler heralds (PHYSICS.md §5.3).
+// a vacuum idler; a counter on the idler heralds (docs/physics.md §5.3).
 #include <cmath>
 #include <limits>
 

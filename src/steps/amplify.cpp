@@ -1,5 +1,5 @@
 // Step `amplify`: noiseless linear amplification g^n (Ralph & Lund, AIP Conf. Proc. 1110, 155
-// (2009)), in the physical form g^{n-N} Pi_N (PHYSICS.md §5.1).
+// (2009)), in the physical form g^{n-N} Pi_N (docs/physics.md §5.1).
 #include <algorithm>
 #include <cmath>
 

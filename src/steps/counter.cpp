@@ -1,4 +1,4 @@
-// Photon-counter response models (PHYSICS.md §4.2) and the trial-rate bound (§13.3).
+// Photon-counter response models (docs/physics.md §4.2) and the trial-rate bound (§13.3).
 #include <algorithm>
 #include <cmath>
 #include <limits>

@@ -16,7 +16,7 @@
 // (the first from (d1+d2)^n (d1-d2) whose d1^{k1} d2^{k2} coefficient is
 // n! (k1 - k2) / (k1! k2!)). With ideal number-resolving counters the herald (1,0) gives
 // T_+ = sqrt((1-kappa)/2)(|0><0| + g|1><1|) and (0,1) gives -T_-: the pi phase |1> -> -|1> on
-// the output of the (0,1) herald makes both T_+ (PHYSICS.md §5.2).
+// the output of the (0,1) herald makes both T_+ (docs/physics.md §5.2).
 // Counters see photon numbers, so for each herald the map is a sum over (k1, k2) of rank-one
 // terms weighted by w1(k1) w2(k2); each is a shift operator of shift m - n, merged per shift.
 #include <cmath>

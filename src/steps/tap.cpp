@@ -1,5 +1,5 @@
 // Step `tap`: a beam splitter of transmissivity T sends part of the mode to a photon counter;
-// the step is heralded on one reading of that counter (PHYSICS.md §4.1-4.3).
+// the step is heralded on one reading of that counter (docs/physics.md §4.1-4.3).
 #include <cmath>
 
 #include "steps/detail.hpp"
