@@ -69,7 +69,7 @@ TEST_CASE("the joint photon-number distribution equals the Fock state's diagonal
   // (textbook: Barnett & Radmore, Methods in Theoretical Quantum Optics, 1997).
   const int n = 20;
   const gaussian::StandardForm tmsv = gaussian::tmst(0.6, 0.0);
-  const std::vector<double> p = detail::photon_numbers(tmsv, n, n);
+  const std::vector<double> p = point::detail::photon_numbers(tmsv, n, n);
   const double l2 = std::pow(std::tanh(0.6), 2);
   for (int i = 0; i <= n; ++i)
     for (int j = 0; j <= n; ++j)
@@ -77,7 +77,7 @@ TEST_CASE("the joint photon-number distribution equals the Fock state's diagonal
   for (const auto& form : {gaussian::apply(gaussian::tmst(0.5, 0.1), Mode::B, {0.6, 0.4}),
                            gaussian::apply(gaussian::tmst(0.5, 0.05), Mode::B, {0.3, 40.0})}) {
     const fock::SectorState s = fock::sector_state(form, n);
-    const std::vector<double> q = detail::photon_numbers(form, n, n);
+    const std::vector<double> q = point::detail::photon_numbers(form, n, n);
     for (int i = 0; i <= n; ++i)
       for (int j = 0; j <= n; ++j) CHECK(q[i * (n + 1) + j] == doctest::Approx(s.get(i, j, i, j)).epsilon(1e-11));
   }
@@ -93,7 +93,7 @@ TEST_CASE("photon-number path: P and the false-herald fraction equal the Fock en
     const PointResult fock = evaluate(p);
     REQUIRE(fock.status == Status::ok);
     REQUIRE(fock.method == Method::fock);
-    const auto num = detail::photon_number(p, prefix_state(p), 1);
+    const auto num = point::detail::photon_number(p, prefix_state(p), 1);
     REQUIRE(num.has_value());
     CHECK(num->probability == doctest::Approx(fock.success_probability).epsilon(1e-10));
     CHECK(1.0 - num->genuine_probability / num->probability ==
@@ -105,7 +105,7 @@ TEST_CASE("photon-number path: P and the false-herald fraction equal the Fock en
   p.steps.push_back(make("scissors", Mode::B, {{"gain", 1.1}, {"photon_source_efficiency", 0.95}}, 0));
   const PointResult fock = evaluate(p);
   REQUIRE(fock.status == Status::ok);
-  const auto num = detail::photon_number(p, prefix_state(p), 1);
+  const auto num = point::detail::photon_number(p, prefix_state(p), 1);
   REQUIRE(num.has_value());
   CHECK(num->probability == doctest::Approx(fock.success_probability).epsilon(1e-10));
 }
@@ -126,7 +126,7 @@ TEST_CASE("Gaussian-sum path: P, F and the false-herald fraction equal the Fock 
     for (const auto& s : cases[c]) p.steps.push_back(s);
     const PointResult fock = evaluate(p);
     REQUIRE(fock.status == Status::ok);
-    const auto sum = detail::gaussian_sum(p, prefix_state(p), 1);
+    const auto sum = point::detail::gaussian_sum(p, prefix_state(p), 1);
     REQUIRE(sum.has_value());
     CHECK(sum->probability == doctest::Approx(fock.success_probability).epsilon(1e-9));
     CHECK(sum->fidelity == doctest::Approx(fock.fidelity).epsilon(1e-9));
@@ -149,7 +149,7 @@ TEST_CASE("closed form: a threshold tap on a thermal marginal, with the false-he
   CHECK(r.method == Method::gaussian_sum);
   CHECK(r.success_probability == doctest::Approx(expect_p).epsilon(1e-12));
   CHECK(r.false_herald_fraction == doctest::Approx(expect_false).epsilon(1e-11));
-  const auto num = detail::photon_number(p, bare_state(p), 1);
+  const auto num = point::detail::photon_number(p, bare_state(p), 1);
   REQUIRE(num.has_value());
   CHECK(num->probability == doctest::Approx(expect_p).epsilon(1e-12));
   CHECK(1.0 - num->genuine_probability / num->probability == doctest::Approx(expect_false).epsilon(1e-10));
@@ -163,7 +163,7 @@ TEST_CASE("separable inputs give E_N = 0 with the separable status for every ste
     CAPTURE(name);
     PointSpec p = separable_point();
     p.steps.push_back(step);
-    REQUIRE(detail::separable(bare_state(p)));
+    REQUIRE(point::detail::separable(bare_state(p)));
     const PointResult r = evaluate(p);
     CHECK(r.status == Status::separable_input);
     CHECK(r.negativity == 0.0);
@@ -189,7 +189,7 @@ TEST_CASE("an entanglement-breaking link after the heralded steps: separable out
   PointSpec p = before;
   p.channel_b = {0.2, 50.0};
   p.steps = {tap(Mode::A, 0.9, 0), make("link")};
-  REQUIRE(detail::entanglement_breaking(p.channel_b));
+  REQUIRE(point::detail::entanglement_breaking(p.channel_b));
   const PointResult r = evaluate(p);
   CHECK(r.status == Status::separable_input);
   CHECK(r.method == Method::gaussian_sum);
@@ -228,8 +228,8 @@ TEST_CASE("a point far beyond survival with a bath of 1250 photons is exact and 
   PointSpec q = noisy_point();
   q.channel_b = {0.2, 1250.0};
   q.steps.push_back(tap(Mode::B, 0.95, 0));
-  const auto sum = detail::gaussian_sum(q, bare_state(q), 1);
-  const auto num = detail::photon_number(q, bare_state(q), 1);
+  const auto sum = point::detail::gaussian_sum(q, bare_state(q), 1);
+  const auto num = point::detail::photon_number(q, bare_state(q), 1);
   REQUIRE(sum.has_value());
   REQUIRE(num.has_value());
   CHECK(sum->probability == doctest::Approx(num->probability).epsilon(1e-12));

@@ -1,6 +1,8 @@
 // Small vocabulary shared by every module: modes, unit conversions, error channels.
 #pragma once
 
+#include <atomic>
+
 #include <cmath>
 #include <cstdio>
 #include <numbers>
@@ -78,6 +80,33 @@ private:
 };
 
 /// Outcome of a numerical evaluation; carried inside results, never thrown.
+/// Thrown by a computation whose cancel flag (CancelScope) was raised: it has no result.
+struct Cancelled : std::runtime_error {
+  Cancelled() : std::runtime_error("heraldry: computation cancelled") {}
+};
+
+namespace cancel_detail {
+inline thread_local const std::atomic<bool>* cancel_flag = nullptr;
+}  // namespace cancel_detail
+
+/// For the lifetime of the scope, long kernels on this thread poll `flag` (null: never
+/// cancelled) between their blocks and throw Cancelled once it is set.
+class CancelScope {
+public:
+  explicit CancelScope(const std::atomic<bool>* flag) : previous_(cancel_detail::cancel_flag) { cancel_detail::cancel_flag = flag; }
+  ~CancelScope() { cancel_detail::cancel_flag = previous_; }
+  CancelScope(const CancelScope&) = delete;
+  CancelScope& operator=(const CancelScope&) = delete;
+
+private:
+  const std::atomic<bool>* previous_;
+};
+
+/// Throws Cancelled when this thread's cancel flag is set (one relaxed load otherwise).
+inline void poll_cancel() {
+  if (cancel_detail::cancel_flag != nullptr && cancel_detail::cancel_flag->load(std::memory_order_relaxed)) throw Cancelled();
+}
+
 enum class Status {
   ok = 0,
   truncation_budget_missed = 1,  ///< the truncation loss exceeds the tolerance at the allowed cutoff

@@ -52,9 +52,7 @@ struct Numerics {
 };
 
 /// Thrown by evaluate when Numerics::cancel is set: the point has no result.
-struct Cancelled : std::runtime_error {
-  Cancelled() : std::runtime_error("heraldry::point::evaluate: cancelled") {}
-};
+using Cancelled = heraldry::Cancelled;
 
 /// Everything one evaluation needs, resolved (SI units, no ranges).
 struct PointSpec {

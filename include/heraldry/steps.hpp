@@ -43,7 +43,7 @@ struct CounterModel {
 /// counter; resolving j counts: k >= j), i.e. the heralded state underwent the photon loss (or
 /// gain) the reading announces, whatever misses and dark counts did to the count itself. A
 /// silent counter (no click, zero counts) keeps its full weight. Running a protocol with genuine
-/// weights gives the false-herald fraction 1 - P_genuine / P (docs/physics.md §4.4).
+/// weights gives the false-herald fraction 1 - P_genuine / P (docs/physics.md §4.3).
 enum class Weighting { full, genuine };
 
 /// Per-gate dark probability from a dark-count rate: p = 1 - exp(-R t) (Poisson arrivals).
@@ -178,7 +178,7 @@ struct Channels {
 
 /// A heralded step written as a Gaussian unitary on (the mode, a vacuum ancilla) whose ancilla
 /// a threshold counter then reads: the step's map is the ancilla traced with the effect of that
-/// reading, a signed sum of Gaussian operators (docs/physics.md §10.2).
+/// reading, a signed sum of Gaussian operators (docs/physics.md §14.2).
 struct GaussianDilation {
   Eigen::Matrix4d symplectic;  // on (x, p of the mode; x, p of the ancilla), vacuum variance 1
   int reading = 1;             // 1: heralded on a click, 0: on no click

@@ -131,6 +131,7 @@ SectorState sector_state(const gaussian::StandardForm& form, int cutoff) {
   const auto inv = reciprocals(2 * cutoff + 1);
   SectorState s(cutoff);
   for (int d = -cutoff; d <= cutoff; ++d) {
+    poll_cancel();
     auto& b = s.block(d);
     const int lo = SectorState::first_photon(d);
     for (int i = 0; i < b.rows(); ++i)
@@ -206,6 +207,7 @@ double gaussian_trace_deficit(const gaussian::StandardForm& form, int cutoff) {
   std::vector<double> power(n, 0.0), base = w, tmp;
   power[0] = 1.0;
   for (unsigned e = static_cast<unsigned>(n); e > 0; e >>= 1) {
+    poll_cancel();
     if (e & 1u) {
       multiply_series(power, base, tmp);
       power.swap(tmp);

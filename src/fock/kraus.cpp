@@ -106,6 +106,7 @@ void apply(SectorState& state, Mode mode, const Operation& op, Workspace& work) 
   detail::photon_distribution(state, mode, p);
   double lost = 0.0;
   for (const auto& k : op.kraus) {
+    poll_cancel();
     check_shift(k, cutoff);
     lost += weight_above(k, p, cutoff);
     const int s = k.shift;

@@ -64,6 +64,7 @@ Entanglement entanglement(const fock::SectorState& state, Workspace& work) {
   // (rho^{T_B})_{(m, s-m), (m', s-m')} = rho_{(m, s-m'), (m', s-m)}, which lives in the
   // d-block d = m + m' - s, row n_a = m, column n_a = m'.
   for (int s = 0; s <= 2 * cutoff; ++s) {
+    poll_cancel();
     const int mlo = std::max(0, s - cutoff), mhi = std::min(s, cutoff);
     const int size = mhi - mlo + 1;
     Eigen::MatrixXd& m = w.pt_blocks[static_cast<std::size_t>(size - 1)];

@@ -53,6 +53,7 @@ void Workspace::Impl::size_epr(int cutoff) {
   const auto lf = fock::detail::log_factorials(cutoff);
   epr_blocks.assign(static_cast<std::size_t>(2 * cutoff + 1), Eigen::MatrixXd());
   for (int d = -cutoff; d <= cutoff; ++d) {
+    poll_cancel();
     const int lo = fock::SectorState::first_photon(d);
     const int size = cutoff + 1 - std::abs(d);
     Eigen::MatrixXd& o = epr_blocks[static_cast<std::size_t>(d + cutoff)];

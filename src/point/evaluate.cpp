@@ -182,8 +182,9 @@ public:
     const fock::Engine engine = numerics.engine;
     // Every cutoff search is bounded by max_cutoff as well as by the memory allowed, before any
     // large loop starts (the Gaussian trace deficit costs O(N^2 log N) per trial cutoff).
-    const double max_bytes = std::min(numerics.max_memory_bytes,
-                                      fock::memory_bytes_for(engine, std::max(1, numerics.max_cutoff) + 1));
+    const double search_bytes = std::min(numerics.max_memory_bytes,
+                                         fock::memory_bytes_for(engine, std::max(1, numerics.max_cutoff) + 1));
+    const double max_bytes = numerics.cutoff > 0 ? numerics.max_memory_bytes : search_bytes;
     const double tol = numerics.tolerance;
     std::optional<Run> last;
     int last_cutoff = -1;
@@ -405,6 +406,8 @@ PointResult separable_result(double p, double genuine, double fidelity, bool fid
 
 PointResult evaluate(const PointSpec& spec) {
   check_point(spec);
+  // The kernels (conversion, Kraus sums, measures) poll the flag between their blocks.
+  const CancelScope cancel_scope(spec.numerics.cancel ? spec.numerics.cancel : heraldry::cancel_detail::cancel_flag);
   detail::poll(spec.numerics);
   // Gaussian prefix: leading link and loss steps act on the covariance matrix (exact), so the
   // state enters Fock space once, after the last Gaussian step (docs/physics.md §2.3).
@@ -417,9 +420,13 @@ PointResult evaluate(const PointSpec& spec) {
     if (ch.a) form = gaussian::apply(form, Mode::A, *ch.a);
     if (ch.b) form = gaussian::apply(form, Mode::B, *ch.b);
   }
-  // The cheapest exact path (docs/physics.md §10).
-  if (first == spec.steps.size()) return detail::covariance_figures(form);  // Gaussian steps only
+  // The cheapest exact path (docs/physics.md §14).
   PointResult r;
+  if (first == spec.steps.size()) {  // Gaussian steps only
+    r = detail::covariance_figures(form);
+    rate(spec, r);
+    return r;
+  }
   const bool separable_in = detail::separable(form);
   if (separable_in || detail::breaks_entanglement(spec, first)) {
     if (const auto sum = detail::gaussian_sum(spec, form, first)) {

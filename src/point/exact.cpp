@@ -1,4 +1,4 @@
-// The exact paths that need no Fock cutoff (docs/physics.md §10): Gaussian protocols on the
+// The exact paths that need no Fock cutoff (docs/physics.md §14): Gaussian protocols on the
 // covariance matrix; separable inputs and entanglement-breaking links, where N = E_N = 0 is a
 // theorem and only the success probability (and the fidelity) remain to compute; threshold
 // heralding as a signed sum of Gaussian operators.
@@ -118,6 +118,7 @@ long long depth_for(double mean, double tail) {
 
 void poll(const Numerics& numerics) {
   if (numerics.cancel != nullptr && numerics.cancel->load(std::memory_order_relaxed)) throw Cancelled();
+  poll_cancel();
 }
 
 PointResult covariance_figures(const gaussian::StandardForm& form) {
@@ -194,7 +195,7 @@ std::optional<SumFigures> gaussian_sum(const PointSpec& spec, const gaussian::St
 std::vector<double> photon_numbers(const gaussian::StandardForm& form, int na, int nb) {
   // Normally ordered moments A = <a^dagger a>, B = <b^dagger b>, C = <a b> of the standard form
   // (vacuum variance 1); the generating function E[z^na w^nb] is
-  // 1 / [(1 + A u)(1 + B v) - C^2 u v], u = 1 - z, v = 1 - w (docs/physics.md §10.1), i.e.
+  // 1 / [(1 + A u)(1 + B v) - C^2 u v], u = 1 - z, v = 1 - w (docs/physics.md §14.1), i.e.
   // 1 / (a0 - a1 z - a2 w + a3 z w), whose coefficients obey the recurrence below. Summed in
   // long double: for separable states a3 >= 0 and the recurrence subtracts.
   const long double A = 0.5L * (form.a - 1.0), B = 0.5L * (form.b - 1.0), C = 0.5L * form.c;

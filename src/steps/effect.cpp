@@ -1,5 +1,5 @@
 // Effects of heralded steps on photon-number states, without a cutoff: the probability that a
-// step heralds on |n> for n up to any depth (docs/physics.md §10.1). Every step kind is
+// step heralds on |n> for n up to any depth (docs/physics.md §14.1). Every step kind is
 // phase-covariant, so its effect sum_k K_k^dagger K_k is diagonal in photon number and the
 // success probability on any state is sum_n e(n) p(n).
 #include <algorithm>

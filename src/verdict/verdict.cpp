@@ -173,6 +173,11 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
                       // grid's /link table holds the first values of swept hardware).
                       auto margin = [&](const point::PointResult& r, const gaussian::StandardForm& bare) {
                         if (!usable(r)) return -1.0;
+                        // A separable result cannot gain entanglement (both are 0 there: no
+                        // break-even beyond survival), and a fidelity that is only its bound 1/2
+                        // is no figure to compare.
+                        if (r.status == Status::separable_input && figure == en_vs_bare) return -1.0;
+                        if (r.fidelity_bound && figure != en_vs_bare) return -1.0;
                         switch (figure) {
                           case en_vs_bare: return r.log_negativity - gaussian::log_negativity(bare);
                           case f_vs_bare: return r.fidelity - gaussian::fidelity(bare);
