@@ -37,13 +37,14 @@ void print_crossing(const char* what, const Crossing& c) {
 const char* crossing_kind(Crossing::Kind k) {
   switch (k) {
     case Crossing::Kind::crossed: return "crossed";
-    case Crossing::Kind::never_positive: return "never_positive";
-    case Crossing::Kind::beyond_grid: return "beyond_grid";
-    case Crossing::Kind::never_crosses: return "never_crosses";
+    case Crossing::Kind::never_positive: return "never";
+    case Crossing::Kind::beyond_grid: return "beyond grid";
+    case Crossing::Kind::never_crosses: return "never breaks";
   }
   return "?";
 }
 
+// The words of the result file's *_kind attributes.
 std::string crossing_json(const Crossing& c) {
   return "{\"kind\": " + json_string(crossing_kind(c.kind)) + ", \"distance_m\": " +
          (c.kind == Crossing::Kind::never_crosses ? std::string("null") : json_number(c.distance)) + "}";
