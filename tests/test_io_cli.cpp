@@ -44,6 +44,22 @@ TEST_CASE("heraldry example prints the demo scenario, which check accepts") {
   CHECK(ck.output.find("valid scenario") != std::string::npos);
 }
 
+TEST_CASE("heraldry check prints the run-time estimate, sweep plus verdict, and the times on more threads") {
+  const Outcome ck = run_tool("check \"" + source("protocols/demo.toml") + "\"");
+  REQUIRE(ck.code == 0);
+  const auto at = ck.output.find("  estimate: ");
+  REQUIRE(at != std::string::npos);
+  const double total = std::stod(ck.output.substr(at + 12));
+  const auto s = ck.output.find("sweep ", at), v = ck.output.find("verdict about ", at);
+  REQUIRE(s != std::string::npos);
+  REQUIRE(v != std::string::npos);
+  const double sw = std::stod(ck.output.substr(s + 6)), vd = std::stod(ck.output.substr(v + 14));
+  CHECK(total > 0.0);
+  CHECK(total == doctest::Approx(sw + vd).epsilon(2e-3));  // four significant digits each
+  CHECK(ck.output.find("on 8, ") != std::string::npos);
+  CHECK(ck.output.find("calibrated by timing ") != std::string::npos);
+}
+
 TEST_CASE("heraldry check exits 2 with the expected message on every malformed scenario") {
   std::size_t n = 0;
   for (const auto& e : fs::directory_iterator(source("tests/bad_scenarios"))) {

@@ -12,6 +12,7 @@
 #include "heraldry/gaussian.hpp"
 #include "heraldry/link.hpp"
 #include "heraldry/point.hpp"
+#include "heraldry/run.hpp"
 #include "heraldry/scenario.hpp"
 #include "heraldry/sweep.hpp"
 
@@ -32,6 +33,18 @@ void print_crossing(const char* what, const Crossing& c) {
       std::printf("%s: every distance (pure loss never breaks entanglement)\n", what);
       break;
   }
+}
+
+// "42 s", "12.5 min", "3.2 h".
+std::string duration_text(double s) {
+  char buf[32];
+  if (s < 60.0)
+    std::snprintf(buf, sizeof buf, "%.2g s", s);
+  else if (s < 3600.0)
+    std::snprintf(buf, sizeof buf, "%.1f min", s / 60.0);
+  else
+    std::snprintf(buf, sizeof buf, "%.1f h", s / 3600.0);
+  return buf;
 }
 
 const char* crossing_kind(Crossing::Kind k) {
@@ -181,6 +194,16 @@ int cmd_check(const std::string& path) {
     std::printf("\n");
   }
   std::printf("  total: %zu points\n", plan.total_points());
+  // The run time: the cost model calibrated by timing a few points (about 0.3 s here).
+  const run::Estimate est = run::estimate(sc, 0.3);
+  const int threads = sweep::thread_count(sc.numerics.threads);
+  std::printf("  estimate: %.4g CPU-seconds (%s) on one thread: sweep %.4g s, verdict about %.4g s;\n"
+              "            about %s on %d thread%s, %s on 8, %s on 32\n"
+              "            (cost model ~cutoff^3.5 per step, calibrated by timing %zu points in %.2f s on this machine)\n",
+              est.cpu_seconds(), duration_text(est.cpu_seconds()).c_str(), est.sweep_cpu_seconds, est.verdict_cpu_seconds,
+              duration_text(est.seconds(threads)).c_str(), threads, threads == 1 ? "" : "s",
+              duration_text(est.seconds(8)).c_str(), duration_text(est.seconds(32)).c_str(), est.timed_points,
+              est.timing_seconds);
 
   // The cutoff the bare link's state needs at each distance (Gaussian estimate; heralded
   // states have heavier tails and need more, which the run finds itself).

@@ -204,3 +204,16 @@ def test_ctrl_c_stops_a_run_and_keeps_the_checkpoint(tmp_path):
     assert not out.exists()
     assert (tmp_path / "demo.h5.partial").exists()
     print(f"Ctrl-C answered in {waited:.2f} s")
+
+
+def test_the_notebook_is_valid_nbformat_4_and_its_code_compiles():
+    nb = json.loads((SOURCE / "docs" / "demo_notebook.ipynb").read_text())
+    assert nb["nbformat"] == 4
+    code = [c for c in nb["cells"] if c["cell_type"] == "code"]
+    assert code
+    for i, cell in enumerate(code):
+        assert cell["outputs"] == [] and "execution_count" in cell
+        compile("".join(cell["source"]), f"cell {i}", "exec")
+    text = "".join("".join(c["source"]) for c in code)
+    for call in ("Scenario.from_file", ".link()", ".probe(", ".run(", ".tune(", "dims["):
+        assert call in text, call
