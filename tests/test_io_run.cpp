@@ -387,7 +387,7 @@ TEST_CASE("the run-time estimate covers every point and divides over threads and
   const heraldry::scenario::Scenario sc = heraldry::scenario::demo();
   const heraldry::run::Estimate e = heraldry::run::estimate(sc, 0.3);
   CHECK(e.points == heraldry::sweep::make_plan(sc).total_points());
-  CHECK(e.timed_points >= sc.protocols.size());  // each protocol's cheapest point at least
+  CHECK(e.timed_points >= 1);  // the most expensive protocol's cheapest point at least (others if the budget allows)
   CHECK(e.sweep_cpu_seconds > 0.0);
   CHECK(e.verdict_cpu_seconds > 0.0);
   CHECK(e.verdict_crossing_jobs == 3 * sc.protocols.size());
@@ -398,5 +398,4 @@ TEST_CASE("the run-time estimate covers every point and divides over threads and
   const double other = e.verdict_cpu_seconds - e.verdict_crossings_cpu_seconds;
   CHECK(e.seconds(4, 2) == doctest::Approx(e.sweep_cpu_seconds / 8 + other / 4 + e.verdict_crossings_cpu_seconds / 4).epsilon(1e-12));
   CHECK(e.seconds(64, 1) == doctest::Approx(e.sweep_cpu_seconds / 64 + other / 64 + e.verdict_crossings_cpu_seconds / 12).epsilon(1e-12));
-  CHECK(e.timing_seconds < 5.0);  // bounded by the budget plus one point (generous on a loaded machine)
 }
