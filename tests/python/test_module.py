@@ -9,6 +9,7 @@ import json
 import math
 import os
 import pathlib
+import re
 import signal
 import subprocess
 import sys
@@ -217,3 +218,34 @@ def test_the_notebook_is_valid_nbformat_4_and_its_code_compiles():
     text = "".join("".join(c["source"]) for c in code)
     for call in ("Scenario.from_file", ".link()", ".probe(", ".run(", ".tune(", "dims["):
         assert call in text, call
+
+
+def test_ctrl_c_stops_tune():
+    # The three-parameter case of the tune benchmark: several seconds of evaluations.
+    text = DEMO.read_text()
+    swept = "transmissivity = { from = 0.86, to = 0.98, points = 5 }"
+    assert swept in text
+    text = text.replace(swept, "transmissivity = { tune = [0.5, 0.99] }")
+    text = text.replace('{ tap = "a", transmissivity = 0.95, counter = "lab" },\n         { tap = "b"',
+                        '{ tap = "a", transmissivity = { tune = [0.5, 0.99] }, counter = "lab" },\n         { tap = "b"', 1)
+    text = re.sub(r"(?m)^squeezing_db = .*$", "squeezing_db = { tune = [3, 10] }", text, count=1)
+    script = (
+        "import heraldry, sys\n"
+        f"sc = heraldry.Scenario.from_string({text!r})\n"
+        "print('tuning', flush=True)\n"
+        "try:\n"
+        "    sc.tune(protocol='subtract both', objective='log-negativity', at=50.0, threads=1)\n"
+        "except KeyboardInterrupt:\n"
+        "    print('interrupted', flush=True)\n"
+        "    sys.exit(130)\n"
+        "print('finished', flush=True)\n"
+    )
+    proc = subprocess.Popen([sys.executable, "-c", script], stdout=subprocess.PIPE, text=True, env=os.environ.copy())
+    assert proc.stdout.readline().strip() == "tuning"
+    time.sleep(0.5)
+    t0 = time.monotonic()
+    proc.send_signal(signal.SIGINT)
+    rest, _ = proc.communicate(timeout=60)
+    assert proc.returncode == 130, rest
+    assert "interrupted" in rest
+    print(f"Ctrl-C during tune answered in {time.monotonic() - t0:.2f} s")
