@@ -19,9 +19,10 @@ heraldry=${HERALDRY:-$(command -v heraldry || echo ./build/heraldry)}
 here=$(dirname "$0")
 
 report=$("$heraldry" check "$scenario")
-line=$(printf '%s\n' "$report" | grep -E '^  estimate: ' || true)
+line=$(printf '%s\n' "$report" | grep -E '^  estimate: [0-9]' || true)
 if [ -z "$line" ]; then
-  echo "size_job.sh: '$heraldry check' printed no estimate line" >&2
+  echo "size_job.sh: '$heraldry check' printed no estimate:" >&2
+  printf '%s\n' "$report" | grep -E 'estimate' >&2 || true
   exit 1
 fi
 # "  estimate: C CPU-seconds (...) on one thread: sweep S s, verdict about V s;"

@@ -194,17 +194,6 @@ int cmd_check(const std::string& path) {
     std::printf("\n");
   }
   std::printf("  total: %zu points\n", plan.total_points());
-  // The run time: the cost model calibrated by timing a few points (about 0.3 s here).
-  const run::Estimate est = run::estimate(sc, 0.3);
-  const int threads = sweep::thread_count(sc.numerics.threads);
-  std::printf("  estimate: %.4g CPU-seconds (%s) on one thread: sweep %.4g s, verdict about %.4g s;\n"
-              "            about %s on %d thread%s, %s on 8, %s on 32\n"
-              "            (cost model ~cutoff^3.5 per step, calibrated by timing %zu points in %.2f s on this machine)\n",
-              est.cpu_seconds(), duration_text(est.cpu_seconds()).c_str(), est.sweep_cpu_seconds, est.verdict_cpu_seconds,
-              duration_text(est.seconds(threads)).c_str(), threads, threads == 1 ? "" : "s",
-              duration_text(est.seconds(8)).c_str(), duration_text(est.seconds(32)).c_str(), est.timed_points,
-              est.timing_seconds);
-
   // The cutoff the bare link's state needs at each distance (Gaussian estimate; heralded
   // states have heavier tails and need more, which the run finds itself).
   const point::Numerics numerics = sweep::numerics_of(sc);
@@ -238,6 +227,20 @@ int cmd_check(const std::string& path) {
       std::printf("  warning: points beyond the bare link's cutoff %d > max_cutoff %d will miss the tolerance\n", hi,
                   sc.numerics.max_cutoff);
   }
+  // The run time: the cost model calibrated by timing a few points (about 0.3 s here).
+  const run::Estimate est = run::estimate(sc, 0.3);
+  const int threads = sweep::thread_count(sc.numerics.threads);
+  if (est.timed_points == 0) {
+    std::printf("  estimate: not available (no point of the grid could be evaluated for the timing)\n");
+    return 0;
+  }
+  std::printf("  estimate: %.4g CPU-seconds (%s) on one thread: sweep %.4g s, verdict about %.4g s;\n"
+              "            about %s on %d thread%s, %s on 8, %s on 32\n"
+              "            (cost model ~cutoff^3.5 per step, calibrated by timing %zu points in %.2f s on this machine)\n",
+              est.cpu_seconds(), duration_text(est.cpu_seconds()).c_str(), est.sweep_cpu_seconds, est.verdict_cpu_seconds,
+              duration_text(est.seconds(threads)).c_str(), threads, threads == 1 ? "" : "s",
+              duration_text(est.seconds(8)).c_str(), duration_text(est.seconds(32)).c_str(), est.timed_points,
+              est.timing_seconds);
   return 0;
 }
 

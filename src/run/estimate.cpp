@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <exception>
 #include <numeric>
 #include <time.h>
 #include <vector>
@@ -84,13 +85,22 @@ Estimate estimate(const scenario::Scenario& sc, double budget_seconds) {
     const std::size_t cheap = of[p].front(), median = of[p][of[p].size() / 2];
     const double left = budget_seconds - seconds_since(t0);
     if (largest_scale > 0.0 && largest_scale * cost[cheap] > left) continue;
-    const double t_cheap = time_job(sc, plan, jobs[cheap], left);
+    double t_cheap = 0.0;
+    try {
+      t_cheap = time_job(sc, plan, jobs[cheap], left);
+    } catch (const std::exception&) {
+      continue;  // the run reports such a point itself; this protocol takes the largest scale
+    }
     ++e.timed_points;
     scale[p] = t_cheap / cost[cheap];
     // The median point, when the cheap one says it fits in what is left.
     if (median != cheap && t_cheap * cost[median] / cost[cheap] < budget_seconds - seconds_since(t0)) {
-      scale[p] = time_job(sc, plan, jobs[median], budget_seconds - seconds_since(t0)) / cost[median];
-      ++e.timed_points;
+      try {
+        scale[p] = time_job(sc, plan, jobs[median], budget_seconds - seconds_since(t0)) / cost[median];
+        ++e.timed_points;
+      } catch (const std::exception&) {
+        // keep the cheap point's scale
+      }
     }
     largest_scale = std::max(largest_scale, scale[p]);
   }
