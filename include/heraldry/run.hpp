@@ -59,8 +59,9 @@ Summary execute(const scenario::Scenario& sc, const Options& options);
 
 /// The run time of a scenario, before running it: the cost model the run orders its points by
 /// (the bare link's Gaussian cutoff N at the point's distance, ~N^3.5 per step), scaled per
-/// protocol by timing representative points of the grid (its cheapest point, then its median
-/// one while the timing stays within about `budget_seconds`). Used by `heraldry check`.
+/// protocol by the CPU time of points of its grid (its cheapest point, then points spread over
+/// its swept axes while its share of `budget_seconds`, in proportion to its modelled cost,
+/// lasts). Used by `heraldry check`.
 struct Estimate {
   std::size_t points = 0;
   double sweep_cpu_seconds = 0.0;    // every point of the grid, on one thread

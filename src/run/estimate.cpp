@@ -76,34 +76,50 @@ Estimate estimate(const scenario::Scenario& sc, double budget_seconds) {
   Estimate e;
   e.points = jobs.size();
   // Seconds per unit of modelled cost, per protocol (protocols differ in what a step costs: a
-  // Gaussian-only protocol is far cheaper than its step count says). A protocol left untimed
-  // when the budget is spent takes the largest scale measured: an upper estimate.
+  // Gaussian-only protocol is far cheaper than its step count says; and the swept parameters,
+  // which the model does not see, change the cost too). Each protocol's cheapest point first,
+  // then points spread over its grid (a golden-ratio sequence over the flat index, so every
+  // swept axis is sampled) while its share of the budget (in proportion to its modelled cost)
+  // lasts; the scale is their total time over their total cost. A protocol left untimed when
+  // the budget is spent takes the largest scale measured: an upper estimate.
+  double grand_total = 0.0;
+  for (double t : total) grand_total += t;
+  std::vector<double> sum_t(np, 0.0), sum_c(np, 0.0);
+  auto sample = [&](std::size_t p, std::size_t j) {
+    try {
+      sum_t[p] += time_job(sc, plan, jobs[j], budget_seconds - seconds_since(t0));
+      sum_c[p] += cost[j];
+      ++e.timed_points;
+    } catch (const std::exception&) {
+      // the run reports such a point itself
+    }
+  };
+  // 1. Every protocol's cheapest point, the most expensive protocols first.
+  for (std::size_t p : by_total)
+    if (!of[p].empty() && (p == by_total.front() || seconds_since(t0) < budget_seconds)) sample(p, of[p].front());
+  // 2. Points spread over each protocol's grid while its share of what is left lasts.
+  const double left = budget_seconds - seconds_since(t0);
+  for (std::size_t p : by_total) {
+    if (of[p].size() < 2 || sum_c[p] <= 0.0) continue;
+    const auto tp = Clock::now();
+    const double share = grand_total > 0.0 ? left * total[p] / grand_total : 0.0;
+    std::vector<std::size_t> flat(of[p]);  // the protocol's jobs in flat order (of[p] is by cost)
+    std::sort(flat.begin(), flat.end());
+    const std::size_t n = flat.size();
+    for (std::size_t k = 0; k < 64 && seconds_since(tp) < share; ++k) {
+      const double u = std::fmod(0.5 + 0.6180339887498949 * static_cast<double>(k), 1.0);
+      const std::size_t j = flat[std::min(n - 1, static_cast<std::size_t>(u * static_cast<double>(n)))];
+      if (sum_t[p] / sum_c[p] * cost[j] > budget_seconds - seconds_since(t0)) break;
+      sample(p, j);
+    }
+  }
   std::vector<double> scale(np, -1.0);
   double largest_scale = 0.0;
-  for (std::size_t p : by_total) {
-    if (of[p].empty()) continue;
-    const std::size_t cheap = of[p].front(), median = of[p][of[p].size() / 2];
-    const double left = budget_seconds - seconds_since(t0);
-    if (largest_scale > 0.0 && largest_scale * cost[cheap] > left) continue;
-    double t_cheap = 0.0;
-    try {
-      t_cheap = time_job(sc, plan, jobs[cheap], left);
-    } catch (const std::exception&) {
-      continue;  // the run reports such a point itself; this protocol takes the largest scale
+  for (std::size_t p = 0; p < np; ++p)
+    if (sum_c[p] > 0.0) {
+      scale[p] = sum_t[p] / sum_c[p];
+      largest_scale = std::max(largest_scale, scale[p]);
     }
-    ++e.timed_points;
-    scale[p] = t_cheap / cost[cheap];
-    // The median point, when the cheap one says it fits in what is left.
-    if (median != cheap && t_cheap * cost[median] / cost[cheap] < budget_seconds - seconds_since(t0)) {
-      try {
-        scale[p] = time_job(sc, plan, jobs[median], budget_seconds - seconds_since(t0)) / cost[median];
-        ++e.timed_points;
-      } catch (const std::exception&) {
-        // keep the cheap point's scale
-      }
-    }
-    largest_scale = std::max(largest_scale, scale[p]);
-  }
   for (double& s : scale)
     if (s < 0.0) s = largest_scale;
 
