@@ -11,10 +11,12 @@
 
 #include <atomic>
 #include <chrono>
+#include <condition_variable>
 #include <cmath>
 #include <exception>
 #include <functional>
 #include <memory>
+#include <mutex>
 #include <optional>
 #include <string>
 #include <thread>
@@ -39,15 +41,18 @@ struct Interrupted : std::exception {
   const char* what() const noexcept override { return "interrupted"; }
 };
 
-/// Runs `work` on a thread of its own with the GIL released; every 50 ms the calling thread takes
-/// the GIL back and lets Python handle pending signals. On Ctrl-C `on_interrupt` is called (it
+/// Runs `work` on a thread of its own with the GIL released; the calling thread returns as soon
+/// as it is done, and every 50 ms until then takes the GIL back and lets Python handle pending
+/// signals. On Ctrl-C `on_interrupt` is called (it
 /// asks the work to stop; it may be called more than once) and, once the work has returned, the
 /// KeyboardInterrupt is raised. Errors of the work are rethrown on the calling thread.
 template <class Result>
 Result interruptible(const std::function<Result()>& work, const std::function<void()>& on_interrupt) {
   std::optional<Result> result;
   std::exception_ptr failure;
-  std::atomic<bool> done{false};
+  std::mutex mutex;
+  std::condition_variable finished;
+  bool done = false;
   bool interrupted = false;
   {
     py::gil_scoped_release release;
@@ -57,11 +62,15 @@ Result interruptible(const std::function<Result()>& work, const std::function<vo
       } catch (...) {
         failure = std::current_exception();
       }
-      done.store(true);
+      const std::lock_guard<std::mutex> lock(mutex);
+      done = true;
+      finished.notify_one();
     });
-    while (!done.load()) {
-      std::this_thread::sleep_for(std::chrono::milliseconds(50));
-      if (done.load()) break;
+    for (;;) {
+      {
+        std::unique_lock<std::mutex> lock(mutex);
+        if (finished.wait_for(lock, std::chrono::milliseconds(50), [&] { return done; })) break;
+      }
       if (interrupted) {
         on_interrupt();
         continue;
