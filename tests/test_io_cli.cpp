@@ -1,7 +1,9 @@
 // The command line as a user runs it: exit codes, the link table, probe's JSON.
 #include <doctest/doctest.h>
 
+#include "heraldry/point.hpp"
 #include "heraldry/scenario.hpp"
+#include "heraldry/sweep.hpp"
 #include "tool_runner.hpp"
 
 #include <H5Cpp.h>
@@ -9,6 +11,7 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <cmath>
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
@@ -41,6 +44,22 @@ TEST_CASE("heraldry example prints the demo scenario, which check accepts") {
   CHECK(ck.output.find("valid scenario") != std::string::npos);
 }
 
+TEST_CASE("heraldry check prints the run-time estimate, sweep plus verdict, and the times on more threads") {
+  const Outcome ck = run_tool("check \"" + source("protocols/demo.toml") + "\"");
+  REQUIRE(ck.code == 0);
+  const auto at = ck.output.find("  estimate: ");
+  REQUIRE(at != std::string::npos);
+  const double total = std::stod(ck.output.substr(at + 12));
+  const auto s = ck.output.find("sweep ", at), v = ck.output.find("verdict about ", at);
+  REQUIRE(s != std::string::npos);
+  REQUIRE(v != std::string::npos);
+  const double sw = std::stod(ck.output.substr(s + 6)), vd = std::stod(ck.output.substr(v + 14));
+  CHECK(total > 0.0);
+  CHECK(total == doctest::Approx(sw + vd).epsilon(2e-3));  // four significant digits each
+  CHECK(ck.output.find("on 8, ") != std::string::npos);
+  CHECK(ck.output.find("calibrated by timing ") != std::string::npos);
+}
+
 TEST_CASE("heraldry check exits 2 with the expected message on every malformed scenario") {
   std::size_t n = 0;
   for (const auto& e : fs::directory_iterator(source("tests/bad_scenarios"))) {
@@ -67,6 +86,80 @@ TEST_CASE("heraldry link prints the table and both distances for the demo") {
   CHECK(o.output.find("entanglement survives (E_N > 0) up to") != std::string::npos);
   CHECK(o.output.find("teleportation beats the classical 1/2 up to") != std::string::npos);
   CHECK(o.output.find("distance_m") != std::string::npos);
+}
+
+namespace {
+
+// The numbers of the JSON array named `key` (null read as NaN).
+std::vector<double> json_array(const std::string& json, const std::string& key) {
+  const auto at = json.find("\"" + key + "\": [");
+  REQUIRE(at != std::string::npos);
+  std::vector<double> out;
+  std::size_t i = at + key.size() + 5;
+  while (json[i] != ']') {
+    while (json[i] == ' ' || json[i] == ',') ++i;
+    if (json.compare(i, 4, "null") == 0) {
+      out.push_back(std::nan(""));
+      i += 4;
+    } else {
+      std::size_t used = 0;
+      out.push_back(std::stod(json.substr(i, 40), &used));
+      i += used;
+    }
+    while (json[i] == ' ' || json[i] == ',') ++i;
+  }
+  return out;
+}
+
+}  // namespace
+
+TEST_CASE("heraldry link --json holds the text table's columns with every digit of the library's values") {
+  const std::string demo = source("protocols/demo.toml");
+  const Outcome text = run_tool("link \"" + demo + "\"");
+  const Outcome json = run_tool("link \"" + demo + "\" --json");
+  REQUIRE(text.code == 0);
+  REQUIRE(json.code == 0);
+  const heraldry::scenario::Scenario sc = heraldry::scenario::load(demo);
+  const auto& grid = sc.link.distances_m;
+  const std::vector<double> d = json_array(json.output, "distance_m");
+  const std::vector<double> en = json_array(json.output, "E_N");
+  const std::vector<double> fid = json_array(json.output, "fidelity");
+  const std::vector<double> tau_b = json_array(json.output, "tau_b");
+  REQUIRE(d.size() == grid.size());
+  REQUIRE(en.size() == grid.size());
+  const heraldry::point::Source src = heraldry::sweep::source_of(sc);
+  for (std::size_t i = 0; i < grid.size(); ++i) {
+    CAPTURE(grid[i]);
+    CHECK(d[i] == grid[i]);
+    const heraldry::point::LinkPoint p = heraldry::point::link_point(src, sc.link.model, grid[i]);
+    CHECK(en[i] == p.log_negativity);
+    CHECK(fid[i] == p.fidelity);
+    CHECK(tau_b[i] == p.budget.b.channel.transmissivity);
+    // A loss in dB is -10 log10 of the transmissivity (definition of the decibel): the loss
+    // columns add up to the path's transmissivity.
+    double total_db = 0.0;
+    for (const char* c : {"beam_dB", "air_dB", "rain_dB", "iface_dB", "spill_dB", "ohmic_dB", "match_dB", "line_dB"})
+      total_db += json_array(json.output, c)[i];
+    CHECK(std::pow(10.0, -total_db / 10.0) == doctest::Approx(tau_b[i]).epsilon(1e-9));
+  }
+  // Every text header is a JSON column, and the text rows print the same numbers (rounded).
+  const auto header_at = text.output.find("distance_m");
+  const std::string header = text.output.substr(header_at, text.output.find('\n', header_at) - header_at);
+  std::size_t columns = 0;
+  for (std::size_t i = 0; i < header.size();) {
+    while (i < header.size() && header[i] == ' ') ++i;
+    const std::size_t j = header.find(' ', i);
+    const std::string name = header.substr(i, j == std::string::npos ? std::string::npos : j - i);
+    CHECK(json.output.find("\"" + name + "\": [") != std::string::npos);
+    ++columns;
+    i = j == std::string::npos ? header.size() : j;
+  }
+  CHECK(columns == 19);
+  const std::string first_row = text.output.substr(text.output.find('\n', header_at) + 1);
+  char expect[64];
+  std::snprintf(expect, sizeof expect, "%9.5f %9.5f", en[0], fid[0]);
+  CHECK(first_row.substr(0, first_row.find('\n')).find(expect) != std::string::npos);
+  CHECK(json.output.find("\"survival\": {\"kind\": ") != std::string::npos);
 }
 
 TEST_CASE("heraldry probe --json prints one object with every protocol's figures") {

@@ -381,3 +381,21 @@ tolerance = 1e-7
   }
   CHECK(crossings >= 1);
 }
+
+TEST_CASE("the run-time estimate covers every point and divides over threads and ranks as its model says") {
+  // No timing is asserted (speed is for benchmarks): the estimate's bookkeeping is.
+  const heraldry::scenario::Scenario sc = heraldry::scenario::demo();
+  const heraldry::run::Estimate e = heraldry::run::estimate(sc, 0.3);
+  CHECK(e.points == heraldry::sweep::make_plan(sc).total_points());
+  CHECK(e.timed_points >= 1);  // the most expensive protocol's cheapest point at least (others if the budget allows)
+  CHECK(e.sweep_cpu_seconds > 0.0);
+  CHECK(e.verdict_cpu_seconds > 0.0);
+  CHECK(e.verdict_crossing_jobs == 3 * sc.protocols.size());
+  CHECK(e.cpu_seconds() == e.sweep_cpu_seconds + e.verdict_cpu_seconds);
+  // One thread, one rank: the CPU time itself. The sweep divides over K ranks x T threads, the
+  // verdict (rank 0) over T threads, its crossings over at most 3 jobs per protocol.
+  CHECK(e.seconds(1, 1) == doctest::Approx(e.cpu_seconds()).epsilon(1e-12));
+  const double other = e.verdict_cpu_seconds - e.verdict_crossings_cpu_seconds;
+  CHECK(e.seconds(4, 2) == doctest::Approx(e.sweep_cpu_seconds / 8 + other / 4 + e.verdict_crossings_cpu_seconds / 4).epsilon(1e-12));
+  CHECK(e.seconds(64, 1) == doctest::Approx(e.sweep_cpu_seconds / 64 + other / 64 + e.verdict_crossings_cpu_seconds / 12).epsilon(1e-12));
+}

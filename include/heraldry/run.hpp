@@ -57,4 +57,27 @@ void request_stop();
 /// is rethrown on rank 0, naming the rank.
 Summary execute(const scenario::Scenario& sc, const Options& options);
 
+/// The run time of a scenario, before running it: the cost model the run orders its points by
+/// (the bare link's Gaussian cutoff N at the point's distance, ~N^3.5 per step), scaled per
+/// protocol by the CPU time of points of its grid (its cheapest point, then points spread over
+/// its swept axes while its share of `budget_seconds`, in proportion to its modelled cost,
+/// lasts). Used by `heraldry check`.
+struct Estimate {
+  std::size_t points = 0;
+  double sweep_cpu_seconds = 0.0;    // every point of the grid, on one thread
+  /// The verdict after the sweep, on one thread: every setting at the target distance, and the
+  /// refinement of three crossings per protocol (counted as 8 evaluations each at the protocol's
+  /// median cost; a crossing beyond the grid needs none, one near the far end costs more).
+  double verdict_cpu_seconds = 0.0;
+  double verdict_crossings_cpu_seconds = 0.0;  // of which the crossings (3 jobs per protocol in parallel)
+  std::size_t verdict_crossing_jobs = 0;
+  std::size_t timed_points = 0;
+  double timing_seconds = 0.0;       // spent calibrating
+  double cpu_seconds() const { return sweep_cpu_seconds + verdict_cpu_seconds; }
+  /// Wall-clock seconds with `threads` threads on each of `ranks` ranks (the sweep shared evenly,
+  /// the verdict on rank 0's threads).
+  double seconds(int threads, int ranks = 1) const;
+};
+Estimate estimate(const scenario::Scenario& sc, double budget_seconds = 0.3);
+
 }  // namespace heraldry::run

@@ -80,6 +80,21 @@ struct Probe {
 Probe probe(const scenario::Scenario& sc, std::optional<double> at_m = std::nullopt,
             std::span<const std::string> pins = {});
 
+/// One column of the bare link's table on the scenario's distance grid: what `heraldry link`
+/// prints, its --json and the Python module's link() return (swept hardware at its first
+/// value). `format` is the column's printf conversion in the text table, `width` its width.
+struct LinkColumn {
+  std::string name;  // the text header and JSON key: "distance_m", "beam_dB", ..., "PLOB"
+  std::string units;
+  std::string description;
+  int width = 9;
+  const char* format = "%9.3g";
+  std::vector<double> values;
+};
+/// The columns in the text table's order. Losses are those of the travelling mode b (per arm
+/// for the midpoint geometry); the measured-link column is "meas_dB" instead of "line_dB".
+std::vector<LinkColumn> link_columns(const scenario::Scenario& sc);
+
 /// Number of threads the dispatcher uses: `requested` if > 0, else OMP_NUM_THREADS / all cores.
 int thread_count(int requested);
 

@@ -6,11 +6,13 @@
 #include <vector>
 
 #include "cli/commands.hpp"
+#include "cli/json.hpp"
 #include "heraldry/crossing.hpp"
 #include "heraldry/fock.hpp"
 #include "heraldry/gaussian.hpp"
 #include "heraldry/link.hpp"
 #include "heraldry/point.hpp"
+#include "heraldry/run.hpp"
 #include "heraldry/scenario.hpp"
 #include "heraldry/sweep.hpp"
 
@@ -33,6 +35,58 @@ void print_crossing(const char* what, const Crossing& c) {
   }
 }
 
+// "42 s", "12.5 min", "3.2 h".
+std::string duration_text(double s) {
+  char buf[32];
+  if (s < 60.0)
+    std::snprintf(buf, sizeof buf, "%.2g s", s);
+  else if (s < 3600.0)
+    std::snprintf(buf, sizeof buf, "%.1f min", s / 60.0);
+  else
+    std::snprintf(buf, sizeof buf, "%.1f h", s / 3600.0);
+  return buf;
+}
+
+const char* crossing_kind(Crossing::Kind k) {
+  switch (k) {
+    case Crossing::Kind::crossed: return "crossed";
+    case Crossing::Kind::never_positive: return "never";
+    case Crossing::Kind::beyond_grid: return "beyond grid";
+    case Crossing::Kind::never_crosses: return "never breaks";
+  }
+  return "?";
+}
+
+// The words of the result file's *_kind attributes.
+std::string crossing_json(const Crossing& c) {
+  return "{\"kind\": " + json_string(crossing_kind(c.kind)) + ", \"distance_m\": " +
+         (c.kind == Crossing::Kind::never_crosses ? std::string("null") : json_number(c.distance)) + "}";
+}
+
+// The table as one JSON object: every column as an array (same names as the text header), their
+// units, and the bare link's crossings (null for measured channels, which have no distance).
+std::string link_json(const scenario::Scenario& sc, const std::vector<sweep::LinkColumn>& columns) {
+  const bool measured = sc.link.measured();
+  std::string out = "{\"title\": " + json_string(sc.title) + ", \"measured\": " + (measured ? "true" : "false") +
+                    ", \"geometry\": " +
+                    json_string(sc.link.model.geometry == link::Geometry::one_way ? "one-way" : "midpoint") +
+                    ", \"columns\": {";
+  for (const sweep::LinkColumn& c : columns)
+    out += std::string(&c == &columns.front() ? "" : ", ") + json_string(c.name) + ": " + json_array(c.values);
+  out += "}, \"units\": {";
+  for (const sweep::LinkColumn& c : columns)
+    out += std::string(&c == &columns.front() ? "" : ", ") + json_string(c.name) + ": " + json_string(c.units);
+  out += "}";
+  const auto& grid = sc.link.distances_m;
+  if (!measured && grid.size() > 1) {
+    const point::BareCrossings c = point::bare_crossings(sweep::source_of(sc), sc.link.model, grid);
+    out += ", \"survival\": " + crossing_json(c.survival) + ", \"fidelity_half\": " + crossing_json(c.fidelity_half);
+  } else {
+    out += ", \"survival\": null, \"fidelity_half\": null";
+  }
+  return out + "}\n";
+}
+
 }  // namespace
 
 std::string antenna_caution(const scenario::Scenario& sc) {
@@ -44,12 +98,17 @@ std::string antenna_caution(const scenario::Scenario& sc) {
          "ohmic_loss_db and return_loss_db in [link.antenna])";
 }
 
-int cmd_link(const std::string& path) {
+int cmd_link(const std::string& path, bool json) {
   const scenario::Scenario sc = scenario::load(path);
   const auto& model = sc.link.model;
   const auto& grid = sc.link.distances_m;
   const point::Source source = sweep::source_of(sc);
   const bool measured = sc.link.measured();
+  const std::vector<sweep::LinkColumn> columns = sweep::link_columns(sc);
+  if (json) {
+    std::fputs(link_json(sc, columns).c_str(), stdout);
+    return 0;
+  }
 
   std::printf("# %s\n", sc.title.c_str());
   std::string source_text;
@@ -87,25 +146,17 @@ int cmd_link(const std::string& path) {
   std::printf("# loss in dB of the travelling mode %s by cause; noise = thermal photons added, (1 - tau) n_E;\n"
               "# spill_n, ohmic_n, match_n: the photons the antennas' spillover, ohmic and mismatch losses add to it\n",
               model.geometry == link::Geometry::one_way ? "b" : "(per arm)");
-  std::printf("%10s %9s %9s %9s %9s %9s %9s %9s %9s %11s %10s %11s %10s %9s %9s %9s %9s %9s %9s\n", "distance_m",
-              "beam_dB", "air_dB", "rain_dB", "iface_dB", "spill_dB", "ohmic_dB", "match_dB", measured ? "meas_dB" : "line_dB", "tau_a",
-              "noise_a", "tau_b", "noise_b", "spill_n", "ohmic_n", "match_n", "E_N", "fidelity", "PLOB");
-  for (double d : grid) {
-    const point::LinkPoint p = point::link_point(source, model, d);
-    const link::LinkBudget& b = p.budget;
-    const auto& l = b.b.loss;
-    const auto& n = b.b.noise;
-    const double na = (1.0 - b.a.channel.transmissivity) * b.a.channel.bath_photons;
-    const double nb = (1.0 - b.b.channel.transmissivity) * b.b.channel.bath_photons;
-    char where[16];
-    if (measured)
-      std::snprintf(where, sizeof where, "%10s", "measured");
-    else
-      std::snprintf(where, sizeof where, "%10.4g", d);
-    std::printf("%s %9.3g %9.3g %9.3g %9.3g %9.3g %9.3g %9.3g %9.3g %11.8f %10.4g %11.8f %10.4g %9.3g %9.3g %9.3g %9.5f %9.5f %9.4g\n",
-                where, l.beam_db, l.air_db, l.rain_db, l.interface_db, l.spillover_db, l.ohmic_db, l.mismatch_db,
-                measured ? l.direct_db : l.line_db, b.a.channel.transmissivity, na, b.b.channel.transmissivity, nb, n.spillover,
-                n.ohmic, n.mismatch, p.log_negativity, p.fidelity, p.plob_ebits);
+  for (const sweep::LinkColumn& c : columns) std::printf("%s%*s", &c == &columns.front() ? "" : " ", c.width, c.name.c_str());
+  std::printf("\n");
+  for (std::size_t i = 0; i < grid.size(); ++i) {
+    for (const sweep::LinkColumn& c : columns) {
+      if (&c != &columns.front()) std::printf(" ");
+      if (measured && &c == &columns.front())
+        std::printf("%*s", c.width, "measured");
+      else
+        std::printf(c.format, c.values[i]);
+    }
+    std::printf("\n");
   }
   if (measured) {
     const point::LinkPoint p = point::link_point(source, model, 0.0);
@@ -143,7 +194,6 @@ int cmd_check(const std::string& path) {
     std::printf("\n");
   }
   std::printf("  total: %zu points\n", plan.total_points());
-
   // The cutoff the bare link's state needs at each distance (Gaussian estimate; heralded
   // states have heavier tails and need more, which the run finds itself).
   const point::Numerics numerics = sweep::numerics_of(sc);
@@ -183,6 +233,20 @@ int cmd_check(const std::string& path) {
                   "numerics.tolerance, or move the distance axis)\n",
                   at, sc.numerics.max_cutoff);
   }
+  // The run time: the cost model calibrated by timing a few points (about 0.3 s here).
+  const run::Estimate est = run::estimate(sc, 0.3);
+  const int threads = sweep::thread_count(sc.numerics.threads);
+  if (est.timed_points == 0) {
+    std::printf("  estimate: not available (no point of the grid could be evaluated for the timing)\n");
+    return 0;
+  }
+  std::printf("  estimate: %.4g CPU-seconds (%s) on one thread: sweep %.4g s, verdict about %.4g s;\n"
+              "            about %s on %d thread%s, %s on 8, %s on 32\n"
+              "            (cost model ~cutoff^3.5 per step, calibrated by timing %zu points in %.2f s on this machine)\n",
+              est.cpu_seconds(), duration_text(est.cpu_seconds()).c_str(), est.sweep_cpu_seconds, est.verdict_cpu_seconds,
+              duration_text(est.seconds(threads)).c_str(), threads, threads == 1 ? "" : "s",
+              duration_text(est.seconds(8)).c_str(), duration_text(est.seconds(32)).c_str(), est.timed_points,
+              est.timing_seconds);
   return 0;
 }
 

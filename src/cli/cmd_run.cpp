@@ -97,8 +97,8 @@ int run_on_ranks(const RunOptions& options, ranks::Session& session) {
                  s.total_points, s.resumed_points, s.seconds, s.verdict_seconds, s.ranks, s.threads,
                  s.computed_points / (s.seconds > 0 ? s.seconds : 1.0), s.file.c_str());
   else
-    std::fprintf(stderr, "heraldry run: %zu points (%zu resumed) in %.2f s on %d threads, %.1f points/s -> %s\n",
-                 s.total_points, s.resumed_points, s.seconds, s.threads,
+    std::fprintf(stderr, "heraldry run: %zu points (%zu resumed) in %.2f s (verdict %.2f s) on %d threads, %.1f points/s -> %s\n",
+                 s.total_points, s.resumed_points, s.seconds, s.verdict_seconds, s.threads,
                  s.computed_points / (s.seconds > 0 ? s.seconds : 1.0), s.file.c_str());
   const std::string text = format_verdict(sc, *s.data.verdict);
   std::fwrite(text.data(), 1, text.size(), stdout);

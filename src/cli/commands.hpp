@@ -44,7 +44,7 @@ struct TuneOptions {
 int cmd_example();
 int cmd_run(const RunOptions& options);
 int cmd_check(const std::string& scenario);
-int cmd_link(const std::string& scenario);
+int cmd_link(const std::string& scenario, bool json);
 int cmd_probe(const ProbeOptions& options);
 int cmd_tune(const TuneOptions& options);
 

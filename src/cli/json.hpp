@@ -4,6 +4,7 @@
 #include <cmath>
 #include <cstdio>
 #include <string>
+#include <vector>
 
 #include "heraldry/point.hpp"
 
@@ -34,6 +35,13 @@ inline std::string json_number(double v) {
   char buf[40];
   std::snprintf(buf, sizeof buf, "%.17g", v);
   return buf;
+}
+
+/// A JSON array of numbers (json_number each: null for a value that is not finite).
+inline std::string json_array(const std::vector<double>& values) {
+  std::string out = "[";
+  for (std::size_t i = 0; i < values.size(); ++i) out += (i ? ", " : "") + json_number(values[i]);
+  return out + "]";
 }
 
 /// Every field of a point's result as JSON members (no braces): "status" and "method" in words,

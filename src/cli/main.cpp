@@ -22,6 +22,8 @@ int main(int argc, char** argv) {
   check->add_option("scenario", scenario, "scenario file (TOML), or - for standard input")->required();
   auto* link = app.add_subcommand("link", "link budget and Gaussian figures versus distance");
   link->add_option("scenario", scenario, "scenario file (TOML), or - for standard input")->required();
+  bool link_json = false;
+  link->add_flag("--json", link_json, "print one JSON object: the table by column, the units and the crossings");
 
   cli::RunOptions run_opts;
   auto* run = app.add_subcommand("run", "the main job: sweep, HDF5 results, verdict (default: the built-in demo)");
@@ -70,7 +72,7 @@ int main(int argc, char** argv) {
   try {
     if (*example) return cli::cmd_example();
     if (*check) return cli::cmd_check(scenario);
-    if (*link) return cli::cmd_link(scenario);
+    if (*link) return cli::cmd_link(scenario, link_json);
     if (*probe) return cli::cmd_probe(probe_opts);
     if (*run) return cli::cmd_run(run_opts);
     if (*tune) return cli::cmd_tune(tune_opts);

@@ -16,6 +16,7 @@
 #include "heraldry/fock.hpp"
 #include "heraldry/run.hpp"
 #include "io/safe_file.hpp"
+#include "run/cost_model.hpp"
 #include "sweep/executor.hpp"
 
 namespace heraldry::run {
@@ -78,8 +79,8 @@ Summary serve_rank(const scenario::Scenario& sc, const Options& options) {
 }
 
 // Most expensive points first (longest-processing-time order): chunks then hold points of
-// similar cost and the threads rarely wait for one slow point at a chunk boundary. The cost
-// model is the Gaussian cutoff of the bare link at the point's distance, ~N^3.5 per step.
+// similar cost and the threads rarely wait for one slow point at a chunk boundary (the cost
+// model of src/run/cost_model.hpp).
 // The order changes nothing in the results: each point writes its own slot.
 std::vector<sweep::Job> ordered_jobs(const scenario::Scenario& sc, const sweep::Plan& plan,
                                      const output::RunData& data, Summary& summary) {
@@ -92,6 +93,20 @@ std::vector<sweep::Job> ordered_jobs(const scenario::Scenario& sc, const sweep::
       else
         jobs.emplace_back(p, i);
     }
+  const std::vector<double> cost = detail::job_costs(sc, plan, jobs);
+  std::vector<std::size_t> order(jobs.size());
+  for (std::size_t j = 0; j < order.size(); ++j) order[j] = j;
+  std::stable_sort(order.begin(), order.end(), [&](std::size_t x, std::size_t y) { return cost[x] > cost[y]; });
+  std::vector<sweep::Job> out;
+  for (std::size_t j : order) out.push_back(jobs[j]);
+  return out;
+}
+
+}  // namespace
+
+namespace detail {
+
+std::vector<double> job_costs(const scenario::Scenario& sc, const sweep::Plan& plan, const std::vector<sweep::Job>& jobs) {
   const point::Source source = sweep::source_of(sc);
   const point::Numerics numerics = sweep::numerics_of(sc);
   std::vector<double> distance_cost;
@@ -106,15 +121,10 @@ std::vector<sweep::Job> ordered_jobs(const scenario::Scenario& sc, const sweep::
     const std::size_t di = plan.protocols[p].unflatten(flat)[0];
     cost[j] = distance_cost[di] * static_cast<double>(sc.protocols[p].steps.size());
   }
-  std::vector<std::size_t> order(jobs.size());
-  for (std::size_t j = 0; j < order.size(); ++j) order[j] = j;
-  std::stable_sort(order.begin(), order.end(), [&](std::size_t x, std::size_t y) { return cost[x] > cost[y]; });
-  std::vector<sweep::Job> out;
-  for (std::size_t j : order) out.push_back(jobs[j]);
-  return out;
+  return cost;
 }
 
-}  // namespace
+}  // namespace detail
 
 void request_stop() { stop_requested.store(true); }
 
