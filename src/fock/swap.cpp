@@ -63,36 +63,31 @@ SectorState noisy_resource(const SectorState& second, double eta) {
 
 struct Rule {
   std::vector<double> r, q;  // radius, 0.5 w_i e^{v_i} Q(r_i)
+  Eigen::MatrixXd number;    // T^(0)_{m'm} = P(m' photons out | m in), m' = 0..top, m = 0..n1
 };
 
-// The quadrature nodes (exact up to output photon number `top`) with the weight at each.
+// The quadrature nodes (exact up to output photon number `top`) with the weight at each, and
+// the photon-number transfer matrix from the same displacement elements.
 Rule make_rule(const SectorState& res, int n1, int top) {
   const int n2 = res.cutoff();
   const int nodes = (2 * n2 + n1 + top + 1) / 2 + 2;
   std::vector<double> x, w;
   detail::gauss_laguerre(nodes, x, w, where);
   Rule rule;
-  Eigen::MatrixXd dm(n2 + 1, n2 + 1);
+  rule.number = Eigen::MatrixXd::Zero(top + 1, n1 + 1);
+  const int dim = std::max(n2, top) + 1;
+  Eigen::MatrixXd dm(dim, dim);
   Eigen::VectorXd v;
   for (int i = 0; i < nodes; ++i) {
     if (std::exp(-0.5 * x[static_cast<std::size_t>(i)]) == 0.0 || w[static_cast<std::size_t>(i)] == 0.0) break;
     const double r = std::sqrt(0.5 * x[static_cast<std::size_t>(i)]);
     detail::displacement_elements(r, dm, where);
+    const double q = 0.5 * w[static_cast<std::size_t>(i)] * epr_weight(res, dm, v);
     rule.r.push_back(r);
-    rule.q.push_back(0.5 * w[static_cast<std::size_t>(i)] * epr_weight(res, dm, v));
+    rule.q.push_back(q);
+    rule.number += q * dm.topLeftCorner(top + 1, n1 + 1).array().square().matrix();
   }
   return rule;
-}
-
-// T^(0)_{m'm} = P(photon number m' out | m in) for m' = 0..top, m = 0..n1.
-Eigen::MatrixXd number_transfer(const Rule& rule, int n1, int top) {
-  Eigen::MatrixXd t = Eigen::MatrixXd::Zero(top + 1, n1 + 1);
-  Eigen::MatrixXd dm(top + 1, top + 1);
-  for (std::size_t i = 0; i < rule.r.size(); ++i) {
-    detail::displacement_elements(rule.r[i], dm, where);
-    t += rule.q[i] * dm.leftCols(n1 + 1).array().square().matrix();
-  }
-  return t;
 }
 
 void check_efficiency(double eta) {
@@ -111,7 +106,7 @@ Eigen::VectorXd swap_output_distribution(const SectorState& first, const SectorS
   const Rule rule = make_rule(res, n1, limit);
   Eigen::VectorXd p1;
   detail::photon_distribution(first, Mode::B, p1);
-  return number_transfer(rule, n1, limit) * p1;
+  return rule.number * p1;
 }
 
 SectorState swap(const SectorState& first, const SectorState& second, const SwapOptions& options) {
@@ -133,7 +128,7 @@ SectorState swap(const SectorState& first, const SectorState& second, const Swap
   int nout = options.output_cutoff;
   for (;;) {
     rule = make_rule(res, n1, top);
-    t0 = number_transfer(rule, n1, top);
+    t0 = rule.number;
     const Eigen::VectorXd p = t0 * p1;
     tail.setZero(top + 1);
     for (int n = top - 1; n >= 0; --n) tail(n) = tail(n + 1) + p(n + 1);
@@ -154,24 +149,23 @@ SectorState swap(const SectorState& first, const SectorState& second, const Swap
   }
 
   // T^(k), k = m - n in [-n1, n1]: rows m' = 0..nout, columns m = 0..n1 (zero where n or n'
-  // fall outside).
+  // fall outside). Only k >= 0 is integrated: T^(-k)_{m'm} = T^(k)_{m'+k, m+k} (the same
+  // integrand with the roles of (m', m) and (n', n) exchanged).
   const int rows = nout + 1, cols = n1 + 1;
   std::vector<Eigen::MatrixXd> tk(static_cast<std::size_t>(2 * n1 + 1), Eigen::MatrixXd::Zero(rows, cols));
   Eigen::MatrixXd dm(rows, rows);
   for (std::size_t i = 0; i < rule.r.size(); ++i) {
     detail::displacement_elements(rule.r[i], dm, where);
     const double q = rule.q[i];
-    for (int k = -n1; k <= n1; ++k) {
-      Eigen::MatrixXd& t = tk[static_cast<std::size_t>(k + n1)];
-      if (k >= 0) {
-        const int r = rows - k, c = cols - k;
-        t.block(k, k, r, c) += q * dm.block(k, k, r, c).cwiseProduct(dm.block(0, 0, r, c));
-      } else {
-        const int r = rows + k, c = cols + k;
-        t.block(0, 0, r, c) += q * dm.block(0, 0, r, c).cwiseProduct(dm.block(-k, -k, r, c));
-      }
+    for (int k = 0; k <= n1; ++k) {
+      const int r = rows - k, c = cols - k;
+      tk[static_cast<std::size_t>(k + n1)].block(k, k, r, c) +=
+          q * dm.block(k, k, r, c).cwiseProduct(dm.block(0, 0, r, c));
     }
   }
+  for (int k = 1; k <= n1; ++k)
+    tk[static_cast<std::size_t>(n1 - k)].topLeftCorner(rows - k, cols - k) =
+        tk[static_cast<std::size_t>(n1 + k)].block(k, k, rows - k, cols - k);
 
   // rho'_{(i,m'),(j,n')} = sum_m T^(i-j)_{m'm} rho_{(i,m),(j,m-i+j)}.
   SectorState out(nout);
