@@ -390,6 +390,17 @@ std::string build_image(const scenario::Scenario& sc, const sweep::Plan& plan, c
     for (const auto& ax : pp.axes) dims += (dims.empty() ? "" : ",") + ax.name;
     attr(g, "dims", dims);
     if (p < sc.protocols.size()) write_steps(g, sc.protocols[p]);
+    if (p < sc.protocols.size() && sc.protocols[p].relay) {
+      // A relay protocol: its figures are those of the swapped pair the station hands on.
+      H5::Group rg = g.createGroup("relay");
+      attr(rg, "bell_efficiency", sc.protocols[p].relay->bell_efficiency);
+      attr(rg, "description",
+           std::string("a relay station at the midpoint: the steps run on each of two identical arms (source at "
+                       "each end, mode b over half the distance), then a unit-gain CV Bell-measurement swap of the two "
+                       "heralded pairs; figures of the outcome-averaged state of the two a modes; "
+                       "success_probability = P_arm^2 and heralding_rate_hz = trial rate x P_arm^2: both arms must "
+                       "herald in the same trial (no quantum memory)"));
+    }
     H5::Group ag = g.createGroup("axes");
     std::vector<std::pair<H5::DataSet, std::string>> scales;
     for (const auto& ax : pp.axes) scales.emplace_back(axis_scale(ag, ax), ax.name);

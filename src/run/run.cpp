@@ -35,7 +35,7 @@ std::string utc_now() {
 
 point::PointResult evaluate_job(const scenario::Scenario& sc, const sweep::Plan& plan, const sweep::Job& job) {
   const auto [p, flat] = job;
-  return point::evaluate(sweep::resolve(sc, plan, p, plan.protocols[p].unflatten(flat)));
+  return sweep::evaluate_point(sc, plan, p, plan.protocols[p].unflatten(flat));
 }
 
 // An MPI rank > 0: evaluates the batches rank 0 hands out; no files. An error of planning is

@@ -198,4 +198,27 @@ point::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
   return spec;
 }
 
+point::PointResult evaluate_point(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
+                                  std::span<const std::size_t> index, double distance_m) {
+  const point::PointSpec spec = resolve(sc, plan, protocol, index, distance_m);
+  const scenario::Protocol& proto = sc.protocols.at(protocol);
+  if (!proto.relay) return point::evaluate(spec);
+  // The link model with this point's swept hardware (as resolve applies it).
+  const ProtocolPlan& pp = plan.protocols.at(protocol);
+  scenario::Source source = sc.source;
+  link::LinkModel model = sc.link.model;
+  std::vector<scenario::Counter> counters = sc.counters;
+  scenario::Counter none;
+  for (std::size_t a = 1; a < pp.axes.size(); ++a) {
+    const Axis& ax = pp.axes[a];
+    if (ax.setting < 0) continue;
+    sc.settings.at(static_cast<std::size_t>(ax.setting))
+        .apply(source, model, ax.counter >= 0 ? counters.at(static_cast<std::size_t>(ax.counter)) : none,
+               ax.values[index[a]]);
+  }
+  const double d = distance_m >= 0.0 ? distance_m : pp.axes[0].values[index[0]];
+  point::RelaySpec relay{point::relay_arm(spec, model, d), proto.relay->bell_efficiency};
+  return point::evaluate_relay(relay).relay;
+}
+
 }  // namespace heraldry::sweep

@@ -56,7 +56,7 @@ std::string summarise(const scenario::Protocol& proto, const ProtocolVerdict& pv
     if (best.status == Status::truncation_budget_missed) line << " (needs cutoff " << best.cutoff_needed << ")";
     return line.str();
   }
-  if (!heralds(proto)) {
+  if (!heralds(proto) && !proto.relay) {
     line << "no heralding: this is the link itself (E_N " << best.log_negativity << ", F " << best.fidelity << ")";
     return line.str();
   }
@@ -69,6 +69,15 @@ std::string summarise(const scenario::Protocol& proto, const ProtocolVerdict& pv
   line.precision(2);
   line << ", " << 100.0 * best.false_herald_fraction << "% false heralds";
   line.precision(3);
+  if (proto.relay) {
+    // The heralded relay beside the Gaussian one (conditional swap of the bare arms).
+    line << "; relay station (unit-gain swap, Bell efficiency " << proto.relay->bell_efficiency
+         << ", both arms herald in the same trial: no quantum memory)";
+    if (v.relay_log_negativity)
+      line << (best.log_negativity > *v.relay_log_negativity + gain_floor ? ", beats" : ", does not beat")
+           << " the Gaussian relay (E_N " << *v.relay_log_negativity << ", F " << *v.relay_fidelity << ")";
+    return line.str();
+  }
   if (v.relay_log_negativity && *v.relay_log_negativity > best.log_negativity)
     line << "; a midpoint relay would do better (E_N " << *v.relay_log_negativity << ")";
   return line.str();
@@ -118,7 +127,7 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
                     const point::PointSpec spec =
                         sweep::resolve(sc, plan, target_jobs[j].protocol, target_jobs[j].index, v.target_m);
                     target_jobs[j].bare = point::bare_state(spec);
-                    target_jobs[j].result = point::evaluate(spec);
+                    target_jobs[j].result = sweep::evaluate_point(sc, plan, target_jobs[j].protocol, target_jobs[j].index, v.target_m);
                   },
                   stop, {});
   if (stopped()) throw Stopped();
@@ -175,7 +184,7 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
                       }
                       auto fn = [&](double d) {
                         const point::PointSpec spec = sweep::resolve(sc, plan, p, best_index[p], d);
-                        return margin(point::evaluate(spec), point::bare_state(spec));
+                        return margin(sweep::evaluate_point(sc, plan, p, best_index[p], d), point::bare_state(spec));
                       };
                       crossings[j] = last_downward_crossing(fn, grid, values, tol);
                     },
