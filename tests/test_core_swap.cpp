@@ -194,7 +194,7 @@ TEST_CASE("swap of non-Gaussian pairs follows the characteristic-function form o
   }
 }
 
-TEST_CASE("swap refuses an efficiency outside (0, 1] and an output cutoff below the input's") {
+TEST_CASE("swap refuses a Bell efficiency of 0 or above 1 and an output cutoff below the input cutoff") {
   const SectorState s = sector_tmsv(0.3, 10);
   SwapOptions o;
   o.bell_efficiency = 0.0;
