@@ -5,12 +5,16 @@
 #include <algorithm>
 #include <cmath>
 #include <string>
+#include <tuple>
 #include <vector>
 
 #include "heraldry/fock.hpp"
 #include "heraldry/gaussian.hpp"
 #include "heraldry/measures.hpp"
+#include "heraldry/point.hpp"
+#include "heraldry/relay.hpp"
 #include "heraldry/swap.hpp"
+#include "heraldry/steps.hpp"
 
 using namespace heraldry;
 using namespace heraldry::fock;
@@ -204,4 +208,53 @@ TEST_CASE("swap refuses a Bell efficiency of 0 or above 1 and an output cutoff b
   o.bell_efficiency = 1.0;
   o.output_cutoff = 5;
   CHECK_THROWS_AS(swap(s, s, o), std::invalid_argument);
+}
+
+TEST_CASE("a relay point with Gaussian arms equals the covariance-matrix unit-gain swap of its arms") {
+  // The relay without heralded steps: each arm is TMST(r, n) with mode b through the link over
+  // half the distance, and the station's unit-gain swap adds the arm's EPR variance
+  // a + b - 2c and 2 (1 - eta)/eta to the teleported mode (Braunstein & Kimble, PRL 80, 869
+  // (1998)): E_N and F of gaussian::swap_unit_gain(arm, arm, eta), to the tolerance.
+  point::PointSpec arm;
+  arm.source.squeezing_r = 0.6;
+  arm.source.thermal_photons = 0.02;
+  arm.steps = {steps::make("link")};
+  arm.numerics.tolerance = 1e-9;
+  for (auto [tau, n_e, eta] : {std::tuple{0.95, 0.05, 1.0}, std::tuple{0.99, 0.5, 0.9}, std::tuple{0.9, 0.0, 0.8}}) {
+    arm.channel_b = {tau, n_e};
+    const auto form = gaussian::apply(point::source_state(arm.source), Mode::B, arm.channel_b);
+    const auto expected = gaussian::swap_unit_gain(form, form, eta);
+    const point::RelayResult r = point::evaluate_relay({arm, eta});
+    CAPTURE(tau);
+    CAPTURE(eta);
+    REQUIRE(r.relay.status == Status::ok);
+    CHECK(r.relay.truncation_error <= 1e-9);
+    CHECK(std::abs(r.relay.log_negativity - gaussian::log_negativity(expected)) < 1e-8);
+    CHECK(std::abs(r.relay.fidelity - gaussian::fidelity(expected)) < 1e-8);
+    CHECK(r.relay.success_probability == doctest::Approx(1.0).epsilon(1e-9));
+  }
+}
+
+TEST_CASE("a heralded relay point heralds with the square of an arm's probability") {
+  // No quantum memory: both arms must herald in the same trial, P = P_arm^2 and the rate is the
+  // trial rate times P (the arm's own P from point::evaluate, which is tested against closed
+  // forms elsewhere); the false heralds of two independent arms: 1 - (1 - f)^2.
+  point::PointSpec arm;
+  arm.source.squeezing_r = 0.4;
+  arm.source.bandwidth_hz = 2e6;
+  arm.channel_b = {0.97, 0.02};
+  arm.counters = {{steps::CounterKind::threshold, 0.43, 8.5e-5, 1e-6, 1e-5}};
+  arm.steps = {steps::make("link"), steps::make("tap", Mode::B, {{"transmissivity", 0.9}}, 0)};
+  arm.numerics.tolerance = 1e-8;
+  const point::RelayResult r = point::evaluate_relay({arm, 0.95});
+  REQUIRE(r.relay.status == Status::ok);
+  const double p = r.arm.success_probability;
+  CHECK(r.relay.success_probability == doctest::Approx(p * p).epsilon(1e-12));
+  const double trials = steps::trial_rate_hz(2e6, arm.counters);
+  CHECK(r.relay.heralding_rate_hz == doctest::Approx(trials * p * p).epsilon(1e-12));
+  const double f = r.arm.false_herald_fraction;
+  CHECK(r.relay.false_herald_fraction == doctest::Approx(1.0 - (1.0 - f) * (1.0 - f)).epsilon(1e-12));
+  CHECK(r.relay.log_negativity > 0.0);
+  CHECK(r.relay.truncation_error <= 1e-8);
+  CHECK_THROWS_AS(point::evaluate_relay({arm, 0.0}), InputError);
 }
