@@ -73,9 +73,13 @@ std::string summarise(const scenario::Protocol& proto, const ProtocolVerdict& pv
     // The heralded relay beside the Gaussian one (conditional swap of the bare arms).
     line << "; relay station (unit-gain swap, Bell efficiency " << proto.relay->bell_efficiency
          << ", both arms herald in the same trial: no quantum memory)";
-    if (v.relay_log_negativity)
-      line << (best.log_negativity > *v.relay_log_negativity + gain_floor ? ", beats" : ", does not beat")
+    if (v.relay_log_negativity) {
+      const bool en = best.log_negativity > *v.relay_log_negativity + gain_floor;
+      const bool f = best.fidelity > *v.relay_fidelity + gain_floor;
+      line << (en && f ? ", beats" : en ? ", beats in E_N (not in fidelity)" : f ? ", beats in fidelity (not in E_N)"
+                                                                                 : ", does not beat")
            << " the Gaussian relay (E_N " << *v.relay_log_negativity << ", F " << *v.relay_fidelity << ")";
+    }
     return line.str();
   }
   if (v.relay_log_negativity && *v.relay_log_negativity > best.log_negativity)
