@@ -4,6 +4,7 @@
 #include <cmath>
 #include <stdexcept>
 #include <string>
+#include <vector>
 
 #include <Eigen/Eigenvalues>
 
@@ -23,6 +24,16 @@ void displacement_elements(double alpha, Eigen::Ref<Eigen::MatrixXd> out, const 
   // (The recurrence in m from row 0 quoted with a D = D (a + alpha) is exact but loses all
   // accuracy above the diagonal through cancellation; this one does not.)
   // Above the diagonal, for real alpha: <n| D |n+k> = (-1)^k <n+k| D |n>.
+  // sqrt(n) and 1/sqrt(n) tables: two multiplications per element instead of two roots.
+  thread_local std::vector<double> root, inverse_root;
+  if (static_cast<int>(root.size()) < 2 * dim + 2) {
+    root.resize(static_cast<std::size_t>(2 * dim + 2));
+    inverse_root.resize(root.size());
+    for (std::size_t i = 0; i < root.size(); ++i) {
+      root[i] = std::sqrt(static_cast<double>(i));
+      inverse_root[i] = i > 0 ? 1.0 / root[i] : 0.0;
+    }
+  }
   for (int k = 0; k < dim; ++k) {
     const double sign = (k % 2 == 0) ? 1.0 : -1.0;
     const double sign_alpha = (alpha < 0.0 && k % 2 == 1) ? -1.0 : 1.0;
@@ -31,8 +42,9 @@ void displacement_elements(double alpha, Eigen::Ref<Eigen::MatrixXd> out, const 
     for (int n = 0; n + k < dim; ++n) {
       out(n + k, n) = cur;
       out(n, n + k) = sign * cur;
-      const double next = ((2.0 * n + 1.0 + k - u) * cur - std::sqrt(double(n) * (n + k)) * prev) /
-                          std::sqrt((n + 1.0) * (n + k + 1.0));
+      const double next = ((2.0 * n + 1.0 + k - u) * cur - root[static_cast<std::size_t>(n)] *
+                                                               root[static_cast<std::size_t>(n + k)] * prev) *
+                          (inverse_root[static_cast<std::size_t>(n + 1)] * inverse_root[static_cast<std::size_t>(n + k + 1)]);
       prev = cur;
       cur = next;
     }

@@ -27,22 +27,6 @@ namespace {
 
 constexpr const char* where = "heraldry::fock::swap";
 
-// Q(r) for the resource, given the displacement elements dm at r (size >= N_2 + 1).
-double epr_weight(const SectorState& res, const Eigen::MatrixXd& dm, Eigen::VectorXd& v) {
-  const int n2 = res.cutoff();
-  double q = 0.0;
-  for (int d = -n2; d <= n2; ++d) {
-    const Eigen::MatrixXd& b = res.block(d);
-    const int lo = SectorState::first_photon(d), size = static_cast<int>(b.rows());
-    v.resize(size);
-    for (int i = 0; i < size; ++i) v(i) = dm(lo + i, lo + i - d);
-    q += v.dot(b * v);
-  }
-  return std::max(0.0, q);  // a quadratic form of a positive block: >= 0 up to round-off
-}
-
-// The resource with the Bell measurement's noise on a2 (mode A): the additive-noise channel
-// of variance 2 (1 - eta) / eta per quadrature, pure loss eta then the amplifier 1/eta.
 // The amplifier adds photons: the state is first embedded at a cutoff half as high again, and what
 // it still sends above is in the ledger.
 SectorState noisy_resource(const SectorState& second, double eta) {
@@ -67,7 +51,9 @@ struct Rule {
 };
 
 // The quadrature nodes (exact up to output photon number `top`) with the weight at each, and
-// the photon-number transfer matrix from the same displacement elements.
+// the photon-number transfer matrix from the same displacement elements. The weights
+// Q(r_i) = sum_d v_d(r_i)^T B_d v_d(r_i) are taken for all nodes at once (one matrix product
+// per block).
 Rule make_rule(const SectorState& res, int n1, int top) {
   const int n2 = res.cutoff();
   const int nodes = (2 * n2 + n1 + top + 1) / 2 + 2;
@@ -77,15 +63,34 @@ Rule make_rule(const SectorState& res, int n1, int top) {
   rule.number = Eigen::MatrixXd::Zero(top + 1, n1 + 1);
   const int dim = std::max(n2, top) + 1;
   Eigen::MatrixXd dm(dim, dim);
-  Eigen::VectorXd v;
-  for (int i = 0; i < nodes; ++i) {
-    if (std::exp(-0.5 * x[static_cast<std::size_t>(i)]) == 0.0 || w[static_cast<std::size_t>(i)] == 0.0) break;
+  int used = 0;
+  while (used < nodes && std::exp(-0.5 * x[static_cast<std::size_t>(used)]) > 0.0 &&
+         w[static_cast<std::size_t>(used)] > 0.0)
+    ++used;
+  std::vector<Eigen::MatrixXd> v(static_cast<std::size_t>(2 * n2 + 1));
+  for (int d = -n2; d <= n2; ++d) v[static_cast<std::size_t>(d + n2)].resize(res.block(d).rows(), used);
+  std::vector<Eigen::MatrixXd> squares;
+  for (int i = 0; i < used; ++i) {
     const double r = std::sqrt(0.5 * x[static_cast<std::size_t>(i)]);
     detail::displacement_elements(r, dm, where);
-    const double q = 0.5 * w[static_cast<std::size_t>(i)] * epr_weight(res, dm, v);
     rule.r.push_back(r);
-    rule.q.push_back(q);
-    rule.number += q * dm.topLeftCorner(top + 1, n1 + 1).array().square().matrix();
+    for (int d = -n2; d <= n2; ++d) {
+      Eigen::MatrixXd& vd = v[static_cast<std::size_t>(d + n2)];
+      const int lo = SectorState::first_photon(d);
+      for (int k = 0; k < vd.rows(); ++k) vd(k, i) = dm(lo + k, lo + k - d);
+    }
+    squares.push_back(dm.topLeftCorner(top + 1, n1 + 1).array().square().matrix());
+  }
+  Eigen::VectorXd q = Eigen::VectorXd::Zero(used);
+  for (int d = -n2; d <= n2; ++d) {
+    const Eigen::MatrixXd& vd = v[static_cast<std::size_t>(d + n2)];
+    q += (vd.array() * (res.block(d) * vd).array()).colwise().sum().matrix().transpose();
+  }
+  for (int i = 0; i < used; ++i) {
+    // A quadratic form of a positive block: >= 0 up to round-off.
+    const double qi = 0.5 * w[static_cast<std::size_t>(i)] * std::max(0.0, q(i));
+    rule.q.push_back(qi);
+    rule.number += qi * squares[static_cast<std::size_t>(i)];
   }
   return rule;
 }
@@ -148,42 +153,46 @@ SectorState swap(const SectorState& first, const SectorState& second, const Swap
     top = 2 * top;
   }
 
-  // T^(k), k = m - n in [-n1, n1]: rows m' = 0..nout, columns m = 0..n1 (zero where n or n'
-  // fall outside). Only k >= 0 is integrated: T^(-k)_{m'm} = T^(k)_{m'+k, m+k} (the same
-  // integrand with the roles of (m', m) and (n', n) exchanged).
+  // T^(k), k = m - n in [0, n1]: rows m' = 0..nout, columns m = 0..n1 (zero where n or n'
+  // fall outside). k < 0 is not needed: the output is symmetric, and its elements of
+  // coherence order -k are the mirror images of those of order k.
   const int rows = nout + 1, cols = n1 + 1;
-  std::vector<Eigen::MatrixXd> tk(static_cast<std::size_t>(2 * n1 + 1), Eigen::MatrixXd::Zero(rows, cols));
+  std::vector<Eigen::MatrixXd> tk(static_cast<std::size_t>(n1 + 1), Eigen::MatrixXd::Zero(rows, cols));
   Eigen::MatrixXd dm(rows, rows);
   for (std::size_t i = 0; i < rule.r.size(); ++i) {
     detail::displacement_elements(rule.r[i], dm, where);
     const double q = rule.q[i];
     for (int k = 0; k <= n1; ++k) {
       const int r = rows - k, c = cols - k;
-      tk[static_cast<std::size_t>(k + n1)].block(k, k, r, c) +=
-          q * dm.block(k, k, r, c).cwiseProduct(dm.block(0, 0, r, c));
+      tk[static_cast<std::size_t>(k)].block(k, k, r, c) += q * dm.block(k, k, r, c).cwiseProduct(dm.block(0, 0, r, c));
     }
   }
-  for (int k = 1; k <= n1; ++k)
-    tk[static_cast<std::size_t>(n1 - k)].topLeftCorner(rows - k, cols - k) =
-        tk[static_cast<std::size_t>(n1 + k)].block(k, k, rows - k, cols - k);
 
-  // rho'_{(i,m'),(j,n')} = sum_m T^(i-j)_{m'm} rho_{(i,m),(j,m-i+j)}.
+  // rho'_{(i,m'),(j,n')} = sum_m T^(k)_{m'm} rho_{(i,m),(j,m-k)}, k = i - j >= 0: for each k one
+  // product of T^(k) with the columns x_(i) (i = k..n1), then the element and its mirror.
   SectorState out(nout);
-  Eigen::VectorXd x(cols), y(rows);
-  for (int i = 0; i <= n1; ++i)
-    for (int j = 0; j <= n1; ++j) {
-      const int k = i - j;
-      x.setZero();
-      for (int m = std::max(0, k); m <= std::min(n1, n1 + k); ++m) {
+  Eigen::MatrixXd x, y;
+  for (int k = 0; k <= n1; ++k) {
+    const int count = n1 + 1 - k;
+    x.setZero(cols, count);
+    for (int c = 0; c < count; ++c) {
+      const int i = k + c, j = c;
+      for (int m = k; m <= n1; ++m) {
         const int d = i - m, lo = SectorState::first_photon(d);
-        x(m) = first.block(d)(i - lo, j - lo);
-      }
-      y.noalias() = tk[static_cast<std::size_t>(k + n1)] * x;
-      for (int mp = std::max(0, k); mp <= std::min(nout, nout + k); ++mp) {
-        const int d = i - mp, lo = SectorState::first_photon(d);
-        out.block(d)(i - lo, j - lo) = y(mp);
+        x(m, c) = first.block(d)(i - lo, j - lo);
       }
     }
+    y.noalias() = tk[static_cast<std::size_t>(k)] * x;
+    for (int c = 0; c < count; ++c) {
+      const int i = k + c, j = c;
+      for (int mp = k; mp <= nout; ++mp) {
+        const int d = i - mp, lo = SectorState::first_photon(d);
+        Eigen::MatrixXd& blk = out.block(d);
+        blk(i - lo, j - lo) = y(mp, c);
+        blk(j - lo, i - lo) = y(mp, c);
+      }
+    }
+  }
 
   double dropped = 0.0;
   if (nout < top) {
