@@ -258,3 +258,50 @@ TEST_CASE("a heralded relay point heralds with the square of an arm's probabilit
   CHECK(r.relay.truncation_error <= 1e-8);
   CHECK_THROWS_AS(point::evaluate_relay({arm, 0.0}), InputError);
 }
+
+TEST_CASE("swap with a feed-forward gain equals the covariance-matrix swap of the same gain") {
+  // Gain g: x_{a2} -> x_{a2} - g x_{b2} + g x_{b1}, so the output is (a1, a2 + g^2 (b1 + b2)
+  // - 2 g c2 + g^2 2 (1 - eta)/eta, g c1) (Braunstein & Kimble, PRL 80, 869 (1998), with gain;
+  // derived in gaussian::swap_feed_forward). Gains below and above one, two efficiencies.
+  measures::Workspace mw;
+  const auto p1 = arm(0.5, 0.01, 0.9, 0.05), p2 = arm(0.6, 0.0, 0.85, 0.0);
+  const SectorState s1 = fock_pair(p1, 1e-15), s2 = fock_pair(p2, 1e-15);
+  for (auto [g, eta] : {std::pair{0.6, 1.0}, std::pair{0.85, 0.9}, std::pair{1.2, 1.0}, std::pair{1.1, 0.95}}) {
+    SwapOptions o;
+    o.gain = g;
+    o.bell_efficiency = eta;
+    o.max_dropped = 1e-16;
+    const SectorState out = swap(s1, s2, o);
+    const auto expected = gaussian::swap_feed_forward(p1, p2, g, eta);
+    CAPTURE(g);
+    CAPTURE(eta);
+    CAPTURE(out.cutoff());
+    CHECK(out.truncation_loss() < 1e-12);
+    CHECK(std::abs(measures::entanglement(out, mw).log_negativity - gaussian::log_negativity(expected)) < 1e-8);
+    CHECK(std::abs(measures::fidelity(out, mw) - gaussian::fidelity(expected)) < 1e-8);
+  }
+}
+
+TEST_CASE("swap with the matched gain has the fidelity of the conditional Gaussian relay") {
+  // The conditional state of an ideal Bell measurement (point::relay_state; PHYSICS.md §9, van
+  // Loock & Braunstein, PRA 61, 010302(R) (2000)) has F = 2/(2 + a1 + a2 - (c1 + c2)^2/(b1 + b2))
+  // (F = 2/(2 + a + b - 2c) of its standard form). The outcome-averaged state with gain g has
+  // F = 2/(2 + a1 + a2 + g^2 (b1 + b2) - 2 g (c1 + c2)), largest at g = (c1 + c2)/(b1 + b2),
+  // where the two agree (closed form, derived here). Fock swap at that gain vs the baseline.
+  measures::Workspace mw;
+  const auto p1 = arm(0.6, 0.02, 0.9, 0.1);
+  const auto p2 = arm(0.5, 0.0, 0.95, 0.05);
+  const double g = (p1.c + p2.c) / (p1.b + p2.b);
+  SwapOptions o;
+  o.gain = g;
+  o.max_dropped = 1e-16;
+  const SectorState out = swap(fock_pair(p1, 1e-15), fock_pair(p2, 1e-15), o);
+  CHECK(std::abs(measures::fidelity(out, mw) - gaussian::fidelity(gaussian::swap(p1, p2))) < 1e-8);
+  // Two copies of one arm (the relay baseline's geometry): g = c/b.
+  const double gs = 2.0 * p1.c / (2.0 * p1.b);
+  o.gain = gs;
+  const SectorState s = fock_pair(p1, 1e-15);
+  const SectorState same = swap(s, s, o);
+  CHECK(std::abs(measures::fidelity(same, mw) - gaussian::fidelity(gaussian::swap(p1, p1))) < 1e-8);
+  CHECK_THROWS_AS(swap(s, s, SwapOptions{1.0, 0.0}), std::invalid_argument);
+}

@@ -73,6 +73,12 @@ StandardForm swap(const StandardForm& first, const StandardForm& second);
 /// duty). docs/relay.md.
 StandardForm swap_unit_gain(const StandardForm& first, const StandardForm& second, double bell_efficiency = 1.0);
 
+/// The same with feed-forward gain g on A2: (a1, a2 + g^2 (b1 + b2) - 2 g c2 + g^2 2 (1 - eta)/eta,
+/// g c1). The gain g = (c1 + c2)/(b1 + b2) gives the fidelity of the conditional state swap()
+/// (closed form: both are 2/(2 + a1 + a2 - (c1 + c2)^2/(b1 + b2))). docs/relay.md.
+StandardForm swap_feed_forward(const StandardForm& first, const StandardForm& second, double gain,
+                               double bell_efficiency = 1.0);
+
 // ------------------------------------------------------------------ the source as measured
 //
 // Conventions: shot-noise units (vacuum quadrature variance 1, x = a + a^dagger), quadrature

@@ -21,9 +21,13 @@
 // additive-noise channel (pure loss eta, then a quantum-limited amplifier of gain 1/eta) on a2 of
 // the resource before P is taken, which is how it is applied.
 //
-// Only unit gain is offered: for a gain g != 1 the noise operator a2 - g b2^dag is not normal
-// ([K, K^dag] = 1 - g^2), so the channel is no longer a random displacement with a positive
-// weight; see docs/relay.md.
+// A feed-forward gain g != 1 (the displacement of a2 is g times the outcome) gives
+// chi_out(xi_1, xi) = chi_1(xi_1, g xi) chi_2(a2: xi, b2: g xi*); the noise operator a2 - g b2^dag
+// is then not normal, so the channel is no random displacement with a positive weight. It is
+// applied as pure loss g^2 (g < 1) or the amplifier g^2 (g > 1) on b1 followed by the
+// multiplication of the characteristic function by a radial weight, again exact by a
+// Gauss-Laguerre rule (docs/relay.md); its dropped weight is then a difference of sums, with an
+// absolute round-off of ~1e-16.
 #pragma once
 
 #include "heraldry/fock.hpp"
@@ -33,6 +37,9 @@ namespace heraldry::fock {
 struct SwapOptions {
   /// Homodyne efficiency of the Bell measurement, in (0, 1].
   double bell_efficiency = 1.0;
+  /// Feed-forward gain g > 0 (1: unit gain). With g > 1 the input is embedded at a cutoff half
+  /// as high again before the amplifier, and the output cutoff must be at least that.
+  double gain = 1.0;
   /// The output's per-mode cutoff; 0: the smallest >= the input cutoffs whose dropped weight
   /// (the output a2 tail) is at most max(max_dropped, L1 Tr rho_2 + Tr rho_1 L2), the weight the
   /// inputs' own truncation already leaves uncertain (and at most max_output_cutoff).
@@ -47,8 +54,8 @@ struct SwapOptions {
 /// L2 including what the efficiency's amplifier cut) + the dropped weight, computed directly as
 /// a sum of positive terms (so it keeps its relative accuracy far below 1e-16).
 /// The quadrature (Gauss-Laguerre in |beta|^2) is exact for the truncated states.
-/// std::invalid_argument for an efficiency outside (0, 1] or an output cutoff below the
-/// input cutoffs.
+/// std::invalid_argument for an efficiency outside (0, 1], a gain that is not a finite number
+/// > 0, or an output cutoff below the input cutoffs.
 SectorState swap(const SectorState& first, const SectorState& second, const SwapOptions& options = {});
 
 /// The same output's a2 photon distribution beyond the input (index n = 0..limit), without
