@@ -15,6 +15,9 @@ struct RelaySpec {
   /// tighter one).
   PointSpec arm;
   double bell_efficiency = 1.0;  // homodyne efficiency of the station's Bell measurement, (0, 1]
+  /// Feed-forward gain of the correction (1: unit gain). Other gains carry a round-off floor of
+  /// ~1e-13 of the trace in the ledger, so tolerances below ~1e-6 are missed (docs/relay.md).
+  double gain = 1.0;
 };
 
 struct RelayResult {
@@ -34,7 +37,8 @@ PointSpec relay_arm(const PointSpec& spec, const link::LinkModel& model, double 
 /// and the output cutoff is chosen so that the weight dropped is <= tol^2 P_arm^2 / 4: the
 /// relay's truncation error sqrt(ledger / P) then stays <= tol (status truncation_budget_missed
 /// otherwise). An arm without figures gives its status to the relay. Throws InputError as
-/// evaluate() does, and for a Bell efficiency outside (0, 1] (key relay.bell_efficiency).
+/// evaluate() does, for a Bell efficiency outside (0, 1] (key relay.bell_efficiency) and for a
+/// gain that is not a finite number > 0 (key relay.gain).
 RelayResult evaluate_relay(const RelaySpec& spec);
 
 }  // namespace heraldry::point

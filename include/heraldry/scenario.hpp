@@ -111,6 +111,7 @@ struct Step {
 /// in the same trial (no quantum memory): P = P_arm^2.
 struct Relay {
   double bell_efficiency = 1.0;         // homodyne efficiency of the station's Bell measurement
+  double gain = 1.0;                    // feed-forward gain of the correction (1: unit gain)
   int line = 0;
 };
 

@@ -394,6 +394,7 @@ std::string build_image(const scenario::Scenario& sc, const sweep::Plan& plan, c
       // A relay protocol: its figures are those of the swapped pair the station hands on.
       H5::Group rg = g.createGroup("relay");
       attr(rg, "bell_efficiency", sc.protocols[p].relay->bell_efficiency);
+      attr(rg, "gain", sc.protocols[p].relay->gain);
       attr(rg, "description",
            std::string("a relay station at the midpoint: the steps run on each of two identical arms (source at "
                        "each end, mode b over half the distance), then a unit-gain CV Bell-measurement swap of the two "

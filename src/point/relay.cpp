@@ -66,6 +66,8 @@ RelayResult evaluate_relay(const RelaySpec& spec) {
   const double eta = spec.bell_efficiency;
   if (!(eta > 0.0 && eta <= 1.0))
     throw InputError("", 0, "relay.bell_efficiency", std::to_string(eta), "an efficiency in (0, 1]");
+  if (!(spec.gain > 0.0) || !std::isfinite(spec.gain))
+    throw InputError("", 0, "relay.gain", std::to_string(spec.gain), "a finite gain > 0");
   RelayResult out;
   const double tol = spec.arm.numerics.tolerance;
   PointSpec arm = spec.arm;
@@ -87,6 +89,7 @@ RelayResult evaluate_relay(const RelaySpec& spec) {
   const double p = pair.trace();
   fock::SwapOptions options;
   options.bell_efficiency = eta;
+  options.gain = spec.gain;
   options.max_dropped = 0.25 * tol * tol * p * p;
   options.max_output_cutoff = std::max(cutoff, spec.arm.numerics.max_cutoff);
   const fock::SectorState swapped = fock::swap(pair, pair, options);

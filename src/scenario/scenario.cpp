@@ -656,9 +656,10 @@ Protocol read_protocol(const Table& p, const std::vector<Counter>& counters) {
     const toml::node* n = p.find("relay");
     if (!n->is_table()) p.doc().fail_at(*n, prefix + "relay", "a table such as { bell_efficiency = 0.9 }");
     const Table r(p.doc(), *n->as_table(), prefix + "relay", Document::line(*n));
-    r.only({"bell_efficiency"});
+    r.only({"bell_efficiency", "gain"});
     Relay relay;
     relay.bell_efficiency = r.number_or("bell_efficiency", Bounds{0.0, 1.0, true, false}, 1.0);
+    relay.gain = r.number_or("gain", Bounds{0.0, 10.0, true, false}, 1.0);
     relay.line = Document::line(*n);
     out.relay = relay;
   }

@@ -217,7 +217,7 @@ point::PointResult evaluate_point(const scenario::Scenario& sc, const Plan& plan
                ax.values[index[a]]);
   }
   const double d = distance_m >= 0.0 ? distance_m : pp.axes[0].values[index[0]];
-  point::RelaySpec relay{point::relay_arm(spec, model, d), proto.relay->bell_efficiency};
+  point::RelaySpec relay{point::relay_arm(spec, model, d), proto.relay->bell_efficiency, proto.relay->gain};
   return point::evaluate_relay(relay).relay;
 }
 

@@ -71,7 +71,12 @@ std::string summarise(const scenario::Protocol& proto, const ProtocolVerdict& pv
   line.precision(3);
   if (proto.relay) {
     // The heralded relay beside the Gaussian one (conditional swap of the bare arms).
-    line << "; relay station (unit-gain swap, Bell efficiency " << proto.relay->bell_efficiency
+    line << "; relay station (";
+    if (proto.relay->gain == 1.0)
+      line << "unit-gain swap";
+    else
+      line << "swap with gain " << proto.relay->gain;
+    line << ", Bell efficiency " << proto.relay->bell_efficiency
          << ", both arms herald in the same trial: no quantum memory)";
     if (v.relay_log_negativity) {
       const bool en = best.log_negativity > *v.relay_log_negativity + gain_floor;
