@@ -40,6 +40,8 @@ FIGSIZE = (8.0, 5.0)
 HALO = [patheffects.withStroke(linewidth=3.0, foreground="white")]   # lines over the map stay visible
 OFF_CHART = 1e300          # plob/rci store the largest double where the path is lossless
 BARE_STYLE = dict(color="black", lw=2.6, alpha=0.45, zorder=1)
+RELAY_STYLE = dict(color="black", lw=1.6, ls="-.", alpha=0.6, zorder=1)
+RELAY_LABEL = "Gaussian midpoint relay (conditional, ideal Bell)"
 FIGURES = ("success_probability", "log_negativity", "fidelity", "heralding_rate_hz")
 
 
@@ -115,6 +117,10 @@ def read_result(path):
             values = ds[...].astype(float)
             gauss[key] = np.ma.masked_array(values, mask=~np.isfinite(values) | (values > OFF_CHART))
             gauss[key + "_units"] = attr_text(ds, "units", "1")
+        # The Gaussian midpoint relay (absent for measured channels).
+        for key in ("relay_log_negativity", "relay_fidelity"):
+            if f"gaussian/{key}" in f and f[f"gaussian/{key}"].shape == dist.shape:
+                gauss[key] = f[f"gaussian/{key}"][...].astype(float)
         if len(need(f, "protocols")) == 0:
             raise LayoutError("'/protocols' holds no protocol")
         verdict = f["verdict"] if "verdict" in f else None
@@ -122,8 +128,9 @@ def read_result(path):
         # Lines and maps need increasing distances; a scenario's list may come in any order.
         order = np.argsort(dist, kind="stable")
         dist = dist[order]
-        for key in ("log_negativity", "fidelity", "plob_ebits"):
-            gauss[key] = gauss[key][order]
+        for key in ("log_negativity", "fidelity", "plob_ebits", "relay_log_negativity", "relay_fidelity"):
+            if key in gauss:
+                gauss[key] = gauss[key][order]
         for proto in protocols:
             proto["data"] = {key: values[order] for key, values in proto["data"].items()}
         units = {key: attr_text(f["protocols"][protocols[0]["name"]][key], "units", "1") for key in FIGURES}
@@ -246,6 +253,8 @@ def plot_entanglement(result, colours, path):
     fig, ax = new_figure(result, "Entanglement versus distance")
     g = result["gaussian"]
     ax.plot(result["distance"], g["log_negativity"], label="bare link (Gaussian layer)", **BARE_STYLE)
+    if "relay_log_negativity" in g:
+        ax.plot(result["distance"], g["relay_log_negativity"], label=RELAY_LABEL, **RELAY_STYLE)
     draw_protocols(ax, result, "log_negativity", colours)
     # Keep the protocols legible: the PLOB bound may leave the frame at short range. It is
     # brought into view where it comes within twice the highest E_N, else named in the legend.
@@ -271,6 +280,8 @@ def plot_entanglement(result, colours, path):
 def plot_fidelity(result, colours, path):
     fig, ax = new_figure(result, "Coherent-state teleportation fidelity versus distance")
     ax.plot(result["distance"], result["gaussian"]["fidelity"], label="bare link (Gaussian layer)", **BARE_STYLE)
+    if "relay_fidelity" in result["gaussian"]:
+        ax.plot(result["distance"], result["gaussian"]["relay_fidelity"], label=RELAY_LABEL, **RELAY_STYLE)
     draw_protocols(ax, result, "fidelity", colours)
     ax.axhline(0.5, color="firebrick", ls="--", lw=1.0, label="classical limit 1/2")
     mark_target(ax, result)
