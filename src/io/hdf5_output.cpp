@@ -257,6 +257,10 @@ void write_verdict(H5::H5File& file, const verdict::Verdict& v, const sweep::Pla
     crossing_attrs(pg, "breakeven_log_negativity", p.breakeven_log_negativity);
     crossing_attrs(pg, "breakeven_fidelity", p.breakeven_fidelity);
     crossing_attrs(pg, "fidelity_half", p.fidelity_half);
+    if (p.breakeven_relay_log_negativity) {
+      crossing_attrs(pg, "breakeven_gaussian_relay_log_negativity", *p.breakeven_relay_log_negativity);
+      crossing_attrs(pg, "breakeven_gaussian_relay_fidelity", *p.breakeven_relay_fidelity);
+    }
     for (const auto& [axis, value] : p.best) attr(pg, ("best_" + axis).c_str(), value);
     if (p.seconds_for_heralds) attr(pg, "seconds_for_heralds", *p.seconds_for_heralds);
     attr(pg, "failed_points", static_cast<long long>(p.failed_points));
