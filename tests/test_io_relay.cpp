@@ -123,4 +123,10 @@ TEST_CASE("a relay protocol runs end to end: the unit-gain swap of its arms in t
   CHECK(pv.summary.find("the Gaussian relay") != std::string::npos);
   // A unit-gain swap of Gaussian arms over a thermal path is noisier than the bare link.
   CHECK_FALSE(pv.pays_off_log_negativity);
+  // ... and than the Gaussian relay: the conditional state has the figures of the best gain
+  // (gaussian::swap_feed_forward at the matched gain), and unit gain with eta < 1 is not it.
+  REQUIRE(pv.breakeven_relay_log_negativity.has_value());
+  CHECK(pv.breakeven_relay_log_negativity->kind == Crossing::Kind::never_positive);
+  CHECK(pv.breakeven_relay_fidelity->kind == Crossing::Kind::never_positive);
+  CHECK_FALSE(s.data.verdict->protocols[0].breakeven_relay_log_negativity.has_value());
 }
