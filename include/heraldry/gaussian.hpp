@@ -65,6 +65,20 @@ double rci_bound(const link::Channel& channel);
 /// B modes; returns the conditional state of (A1, A2) (docs/physics.md §9).
 StandardForm swap(const StandardForm& first, const StandardForm& second);
 
+/// The same swap with unit-gain feed-forward on A2, averaged over the outcomes (Braunstein &
+/// Kimble, PRL 80, 869 (1998); van Loock & Braunstein, PRA 61, 010302(R) (2000)): mode B1 is
+/// teleported to A2 through the second pair, so (A1, A2) is the first pair with
+/// b -> b + (a2 + b2 - 2 c2) + 2 (1 - eta) / eta, a and c kept (eta: the homodyne efficiency
+/// of the Bell measurement, outcomes rescaled by 1/sqrt(eta)). Requires 0 < eta <= 1 (caller's
+/// duty). docs/relay.md.
+StandardForm swap_unit_gain(const StandardForm& first, const StandardForm& second, double bell_efficiency = 1.0);
+
+/// The same with feed-forward gain g on A2: (a1, a2 + g^2 (b1 + b2) - 2 g c2 + g^2 2 (1 - eta)/eta,
+/// g c1). The gain g = (c1 + c2)/(b1 + b2) gives the fidelity of the conditional state swap()
+/// (closed form: both are 2/(2 + a1 + a2 - (c1 + c2)^2/(b1 + b2))). docs/relay.md.
+StandardForm swap_feed_forward(const StandardForm& first, const StandardForm& second, double gain,
+                               double bell_efficiency = 1.0);
+
 // ------------------------------------------------------------------ the source as measured
 //
 // Conventions: shot-noise units (vacuum quadrature variance 1, x = a + a^dagger), quadrature

@@ -104,9 +104,21 @@ struct Step {
   const Param& param(std::string_view key) const;
 };
 
+/// A relay station at the midpoint (`relay = { bell_efficiency = 0.9 }` in a protocol): the
+/// protocol's steps run on each of two identical arms (a source at each end sending mode b over
+/// half the distance; steps on "a" act on the kept mode, on "b" at the station), then the
+/// station swaps the two heralded pairs with unit gain (docs/relay.md). Both arms must herald
+/// in the same trial (no quantum memory): P = P_arm^2.
+struct Relay {
+  double bell_efficiency = 1.0;         // homodyne efficiency of the station's Bell measurement
+  double gain = 1.0;                    // feed-forward gain of the correction (1: unit gain)
+  int line = 0;
+};
+
 struct Protocol {
   std::string name;
   std::vector<Step> steps;
+  std::optional<Relay> relay;           // a relay protocol: the figures of the swapped pair
 };
 
 enum class EngineKind { sector, dense };

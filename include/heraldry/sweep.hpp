@@ -3,6 +3,8 @@
 // points in parallel (OpenMP lives only in src/sweep/dispatch.cpp).
 #pragma once
 
+#include <atomic>
+
 #include <cstddef>
 #include <cstdint>
 #include <functional>
@@ -12,6 +14,7 @@
 #include <vector>
 
 #include "heraldry/point.hpp"
+#include "heraldry/relay.hpp"
 #include "heraldry/scenario.hpp"
 
 namespace heraldry::sweep {
@@ -61,6 +64,16 @@ point::Numerics numerics_of(const scenario::Scenario& sc);
 /// distance (used to refine crossings between grid points).
 point::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
                          std::span<const std::size_t> index, double distance_m = -1.0);
+
+/// The figures of protocol p at a multi-index (`distance_m` as for resolve): point::evaluate of
+/// the resolved point, or, for a relay protocol, point::evaluate_relay of its arm (the resolved
+/// point with mode a kept at its end and mode b over half the distance) and the station's Bell
+/// efficiency. The one evaluation every command uses. `cancel`: a stop flag polled inside the
+/// evaluation (point::Cancelled when set). A kernel's input error is reported with the
+/// scenario's file.
+point::PointResult evaluate_point(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
+                                  std::span<const std::size_t> index, double distance_m = -1.0,
+                                  const std::atomic<bool>* cancel = nullptr);
 
 /// Applies one pin "PROTOCOL:AXIS=VALUE" to the plan (that swept axis keeps only the value).
 /// InputError on the key "--set" naming what was expected (the protocol's swept axes).

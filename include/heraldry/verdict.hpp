@@ -32,6 +32,10 @@ struct ProtocolVerdict {
   Crossing breakeven_fidelity;
   /// The largest distance with fidelity above 1/2.
   Crossing fidelity_half;
+  /// A relay protocol over a modelled link: where it stops beating the Gaussian midpoint relay
+  /// (point::relay_state with the scenario's first hardware), in E_N and in fidelity.
+  std::optional<Crossing> breakeven_relay_log_negativity;
+  std::optional<Crossing> breakeven_relay_fidelity;
   /// For swept parameters: the setting with the largest E_N at the target (name, value).
   std::vector<std::pair<std::string, double>> best;
   std::optional<double> seconds_for_heralds;  // [output] heralds_wanted / heralding rate

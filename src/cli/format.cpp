@@ -80,6 +80,9 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
       std::snprintf(buf, sizeof buf, "; %.4g s for %.4g heralded pairs", *p.seconds_for_heralds, *sc.output.heralds_wanted);
       out << buf;
     }
+    if (p.breakeven_relay_log_negativity)
+      out << "; break-even with the Gaussian relay: E_N " << describe_crossing(*p.breakeven_relay_log_negativity)
+          << ", F " << describe_crossing(*p.breakeven_relay_fidelity);
     if (p.failed_points) out << "; " << p.failed_points << " grid points failed (see status in the file)";
     out << "\n";
   }

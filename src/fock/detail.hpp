@@ -12,6 +12,13 @@ namespace heraldry::fock::detail {
 void photon_distribution(const SectorState& s, Mode mode, Eigen::VectorXd& p);
 void photon_distribution(const DenseState& s, Mode mode, Eigen::VectorXd& p);
 
+/// out(m, n) = <m| D(alpha) |n> for real alpha (the normalised Laguerre recurrence; see
+/// heraldry::measures::displacement_elements). std::invalid_argument (prefixed by `where`) for a
+/// non-square output or a non-finite alpha.
+void displacement_elements(double alpha, Eigen::Ref<Eigen::MatrixXd> out, const char* where);
+/// Gauss-Laguerre nodes and weights w_i e^{x_i} (see heraldry::measures::gauss_laguerre).
+void gauss_laguerre(int n, std::vector<double>& nodes, std::vector<double>& scaled_weights, const char* where);
+
 /// ln k! for k = 0..n (std::lgamma, accurate to a few ulp of the result).
 inline std::vector<double> log_factorials(int n) {
   std::vector<double> lf(static_cast<std::size_t>(n + 1));

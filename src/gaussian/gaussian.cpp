@@ -116,4 +116,22 @@ StandardForm swap(const StandardForm& p1, const StandardForm& p2) {
   return {p1.a - p1.c * p1.c / s, p2.a - p2.c * p2.c / s, p1.c * p2.c / s};
 }
 
+StandardForm swap_feed_forward(const StandardForm& first, const StandardForm& second, double gain,
+                               double bell_efficiency) {
+  // x_{a2} -> x_{a2} - g x_{b2} + g x_{b1} + g noise (p with signs that keep the standard form):
+  // Var = a2 + g^2 (b1 + b2) - 2 g c2 + g^2 2 (1 - eta)/eta, Cov(x_{a1}, x_{a2}) = g c1.
+  const double g = gain;
+  return {first.a,
+          second.a + g * g * (first.b + second.b) - 2.0 * g * second.c + g * g * 2.0 * (1.0 - bell_efficiency) / bell_efficiency,
+          g * first.c};
+}
+
+StandardForm swap_unit_gain(const StandardForm& first, const StandardForm& second, double bell_efficiency) {
+  // x_{a2} = x_{b1} + (x_{a2} - x_{b2}) + noise, p likewise with p_{a2} + p_{b2}: the teleported
+  // mode keeps its correlations with a1 and gains the resource's EPR variance a2 + b2 - 2 c2 and
+  // the rescaled homodyne noise 2 (1 - eta) / eta.
+  const double noise = second.a + second.b - 2.0 * second.c + 2.0 * (1.0 - bell_efficiency) / bell_efficiency;
+  return {first.a, first.b + noise, first.c};
+}
+
 }  // namespace heraldry::gaussian

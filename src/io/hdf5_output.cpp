@@ -262,6 +262,10 @@ void write_verdict(H5::H5File& file, const verdict::Verdict& v, const sweep::Pla
     crossing_attrs(pg, "breakeven_log_negativity", p.breakeven_log_negativity);
     crossing_attrs(pg, "breakeven_fidelity", p.breakeven_fidelity);
     crossing_attrs(pg, "fidelity_half", p.fidelity_half);
+    if (p.breakeven_relay_log_negativity) {
+      crossing_attrs(pg, "breakeven_gaussian_relay_log_negativity", *p.breakeven_relay_log_negativity);
+      crossing_attrs(pg, "breakeven_gaussian_relay_fidelity", *p.breakeven_relay_fidelity);
+    }
     for (const auto& [axis, value] : p.best) attr(pg, ("best_" + axis).c_str(), value);
     if (p.seconds_for_heralds) attr(pg, "seconds_for_heralds", *p.seconds_for_heralds);
     attr(pg, "failed_points", static_cast<long long>(p.failed_points));
@@ -395,6 +399,18 @@ std::string build_image(const scenario::Scenario& sc, const sweep::Plan& plan, c
     for (const auto& ax : pp.axes) dims += (dims.empty() ? "" : ",") + ax.name;
     attr(g, "dims", dims);
     if (p < sc.protocols.size()) write_steps(g, sc.protocols[p]);
+    if (p < sc.protocols.size() && sc.protocols[p].relay) {
+      // A relay protocol: its figures are those of the swapped pair the station hands on.
+      H5::Group rg = g.createGroup("relay");
+      attr(rg, "bell_efficiency", sc.protocols[p].relay->bell_efficiency);
+      attr(rg, "gain", sc.protocols[p].relay->gain);
+      attr(rg, "description",
+           std::string("a relay station at the midpoint: the steps run on each of two identical arms (source at "
+                       "each end, mode b over half the distance), then a unit-gain CV Bell-measurement swap of the two "
+                       "heralded pairs; figures of the outcome-averaged state of the two a modes; "
+                       "success_probability = P_arm^2 and heralding_rate_hz = trial rate x P_arm^2: both arms must "
+                       "herald in the same trial (no quantum memory)"));
+    }
     H5::Group ag = g.createGroup("axes");
     std::vector<std::pair<H5::DataSet, std::string>> scales;
     for (const auto& ax : pp.axes) scales.emplace_back(axis_scale(ag, ax), ax.name);

@@ -39,15 +39,7 @@ std::string utc_now() {
 point::PointResult evaluate_job(const scenario::Scenario& sc, const sweep::Plan& plan, const sweep::Job& job,
                                 const std::atomic<bool>* cancel = nullptr) {
   const auto [p, flat] = job;
-  point::PointSpec spec = sweep::resolve(sc, plan, p, plan.protocols[p].unflatten(flat));
-  spec.numerics.cancel = cancel;
-  try {
-    return point::evaluate(spec);
-  } catch (const InputError& e) {
-    // A kernel names the key it checked; the scenario file is the user's.
-    if (!e.file().empty()) throw;
-    throw InputError(sc.path, e.line(), e.key(), e.value(), e.expected(), e.hint());
-  }
+  return sweep::evaluate_point(sc, plan, p, plan.protocols[p].unflatten(flat), -1.0, cancel);
 }
 
 // An MPI rank > 0: evaluates the batches rank 0 hands out; no files. An error of planning is

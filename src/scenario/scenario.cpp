@@ -604,7 +604,7 @@ std::optional<std::string> pre_label(const toml::table& t) {
 }
 
 Protocol read_protocol(const Table& p, const std::vector<Counter>& counters) {
-  p.only({"name", "steps"});
+  p.only({"name", "steps", "relay"});
   Protocol out;
   const auto name = p.string("name");
   if (!name) p.missing("name", "a non-empty string");
@@ -652,6 +652,17 @@ Protocol read_protocol(const Table& p, const std::vector<Counter>& counters) {
     }
   }
   if (links == 0) p.doc().fail_at(*steps, steps_key, "exactly one \"link\" step per protocol", "found none");
+  if (p.has("relay")) {
+    const toml::node* n = p.find("relay");
+    if (!n->is_table()) p.doc().fail_at(*n, prefix + "relay", "a table such as { bell_efficiency = 0.9 }");
+    const Table r(p.doc(), *n->as_table(), prefix + "relay", Document::line(*n));
+    r.only({"bell_efficiency", "gain"});
+    Relay relay;
+    relay.bell_efficiency = r.number_or("bell_efficiency", Bounds{0.0, 1.0, true, false}, 1.0);
+    relay.gain = r.number_or("gain", Bounds{0.0, 10.0, true, false}, 1.0);
+    relay.line = Document::line(*n);
+    out.relay = relay;
+  }
   return out;
 }
 
@@ -735,6 +746,10 @@ Scenario parse(std::string_view text, const std::string& file_name) {
   s.link = read_link(root, s.source, s.settings);
   s.counters = read_counters(root, s.settings);
   s.protocols = read_protocols(root, s.counters);
+  for (const Protocol& pr : s.protocols)
+    if (pr.relay && s.link.measured())
+      detail::raise(file_name, pr.relay->line, pr.name + ":relay", "{ ... }",
+                    "a modelled link (a relay splits the path at its midpoint; [link.direct] has no midpoint)");
   s.numerics = read_numerics(root);
   s.output = read_output(root);
   return s;

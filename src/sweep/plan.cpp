@@ -198,4 +198,46 @@ point::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
   return spec;
 }
 
+namespace {
+
+point::PointResult evaluate_resolved(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
+                                     std::span<const std::size_t> index, double distance_m,
+                                     const std::atomic<bool>* cancel) {
+  point::PointSpec spec = resolve(sc, plan, protocol, index, distance_m);
+  spec.numerics.cancel = cancel;
+  const scenario::Protocol& proto = sc.protocols.at(protocol);
+  if (!proto.relay) return point::evaluate(spec);
+  // The link model with this point's swept hardware (as resolve applies it).
+  const ProtocolPlan& pp = plan.protocols.at(protocol);
+  scenario::Source source = sc.source;
+  link::LinkModel model = sc.link.model;
+  std::vector<scenario::Counter> counters = sc.counters;
+  scenario::Counter none;
+  for (std::size_t a = 1; a < pp.axes.size(); ++a) {
+    const Axis& ax = pp.axes[a];
+    if (ax.setting < 0) continue;
+    sc.settings.at(static_cast<std::size_t>(ax.setting))
+        .apply(source, model, ax.counter >= 0 ? counters.at(static_cast<std::size_t>(ax.counter)) : none,
+               ax.values[index[a]]);
+  }
+  const double d = distance_m >= 0.0 ? distance_m : pp.axes[0].values[index[0]];
+  point::RelaySpec relay{point::relay_arm(spec, model, d), proto.relay->bell_efficiency, proto.relay->gain};
+  return point::evaluate_relay(relay).relay;
+}
+
+}  // namespace
+
+point::PointResult evaluate_point(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
+                                  std::span<const std::size_t> index, double distance_m,
+                                  const std::atomic<bool>* cancel) {
+  const CancelScope scope(cancel);  // the swap kernel of a relay polls it too
+  try {
+    return evaluate_resolved(sc, plan, protocol, index, distance_m, cancel);
+  } catch (const InputError& e) {
+    // A kernel names the key it checked; the scenario file is the user's.
+    if (!e.file().empty()) throw;
+    throw InputError(sc.path, e.line(), e.key(), e.value(), e.expected(), e.hint());
+  }
+}
+
 }  // namespace heraldry::sweep

@@ -61,7 +61,7 @@ Probe probe(const scenario::Scenario& sc, std::optional<double> at_m, std::span<
   out.link = point::link_point(source_of(sc), sc.link.model, d);
   for (std::size_t p = 0; p < plan.protocols.size(); ++p) {
     const std::vector<std::size_t> idx(plan.protocols[p].axes.size(), 0);
-    out.protocols.push_back({plan.protocols[p].name, point::evaluate(resolve(sc, plan, p, idx, d))});
+    out.protocols.push_back({plan.protocols[p].name, evaluate_point(sc, plan, p, idx, d)});
   }
   return out;
 }

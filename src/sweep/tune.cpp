@@ -86,7 +86,7 @@ private:
     w.numerics.tolerance = tolerance;
     const sweep::Plan plan = sweep::make_plan(w);
     const std::vector<std::size_t> index(plan.protocols[0].axes.size(), 0);
-    const point::PointResult r = point::evaluate(sweep::resolve(w, plan, 0, index, d_));
+    const point::PointResult r = sweep::evaluate_point(w, plan, 0, index, d_);
     const std::size_t done = ++count_;
     if (options_.progress) {
       const std::lock_guard<std::mutex> lock(progress_mutex_);

@@ -62,7 +62,7 @@ std::string summarise(const scenario::Protocol& proto, const ProtocolVerdict& pv
     }
     return line.str();
   }
-  if (!heralds(proto)) {
+  if (!heralds(proto) && !proto.relay) {
     line << "no heralding: this is the link itself (E_N " << best.log_negativity << ", F " << best.fidelity << ")";
     return line.str();
   }
@@ -86,6 +86,24 @@ std::string summarise(const scenario::Protocol& proto, const ProtocolVerdict& pv
   line.precision(2);
   line << ", " << 100.0 * best.false_herald_fraction << "% false heralds";
   line.precision(3);
+  if (proto.relay) {
+    // The heralded relay beside the Gaussian one (conditional swap of the bare arms).
+    line << "; relay station (";
+    if (proto.relay->gain == 1.0)
+      line << "unit-gain swap";
+    else
+      line << "swap with gain " << proto.relay->gain;
+    line << ", Bell efficiency " << proto.relay->bell_efficiency
+         << ", both arms herald in the same trial: no quantum memory)";
+    if (v.relay_log_negativity) {
+      const bool en = best.log_negativity > *v.relay_log_negativity + gain_floor;
+      const bool f = best.fidelity > *v.relay_fidelity + gain_floor;
+      line << (en && f ? ", beats" : en ? ", beats in E_N (not in fidelity)" : f ? ", beats in fidelity (not in E_N)"
+                                                                                 : ", does not beat")
+           << " the Gaussian relay (E_N " << *v.relay_log_negativity << ", F " << *v.relay_fidelity << ")";
+    }
+    return line.str();
+  }
   if (v.relay_log_negativity && *v.relay_log_negativity > best.log_negativity)
     line << "; a midpoint relay would do better (E_N " << *v.relay_log_negativity << ")";
   return line.str();
@@ -135,7 +153,7 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
                     const point::PointSpec spec =
                         sweep::resolve(sc, plan, target_jobs[j].protocol, target_jobs[j].index, v.target_m);
                     target_jobs[j].bare = point::bare_state(spec);
-                    target_jobs[j].result = point::evaluate(spec);
+                    target_jobs[j].result = sweep::evaluate_point(sc, plan, target_jobs[j].protocol, target_jobs[j].index, v.target_m);
                   },
                   stop, {});
   if (stopped()) throw Stopped();
@@ -156,22 +174,27 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
 
   // 2. Crossings along distance with each protocol's best setting held fixed: grid values from
   //    the run, refined between grid points by fresh evaluations. Three per protocol, in parallel.
-  enum Figure { en_vs_bare = 0, f_vs_bare = 1, f_vs_half = 2 };
-  std::vector<Crossing> crossings(3 * np);
+  // Relay protocols also against the Gaussian relay (two more figures).
+  enum Figure { en_vs_bare = 0, f_vs_bare = 1, f_vs_half = 2, en_vs_relay = 3, f_vs_relay = 4 };
+  constexpr std::size_t nf = 5;
+  std::vector<Crossing> crossings(nf * np);
+  auto compared_with_relay = [&](std::size_t p) { return sc.protocols.at(p).relay.has_value() && !v.measured; };
   if (grid.size() > 1) {
     const double step = (grid.back() - grid.front()) / static_cast<double>(grid.size() - 1);
     const double tol = 1e-4 * std::max(step, 1e-12);
-    std::vector<std::size_t> jobs(3 * np);
-    for (std::size_t j = 0; j < jobs.size(); ++j) jobs[j] = j;
+    std::vector<std::size_t> jobs;
+    for (std::size_t j = 0; j < nf * np; ++j)
+      if (j % nf < 3 || compared_with_relay(j / nf)) jobs.push_back(j);
     sweep::dispatch(jobs, threads,
                     [&](std::size_t j) {
-                      const std::size_t p = j / 3;
-                      const auto figure = static_cast<Figure>(j % 3);
+                      const std::size_t p = j / nf;
+                      const auto figure = static_cast<Figure>(j % nf);
                       const sweep::ProtocolPlan& pp = plan.protocols[p];
                       const sweep::ProtocolTable& table = tables[p];
                       // The bare link of the comparisons has the best setting's hardware (the
                       // grid's /link table holds the first values of swept hardware).
-                      auto margin = [&](const point::PointResult& r, const gaussian::StandardForm& bare) {
+                      // (The Gaussian relay at a distance: the scenario's first hardware.)
+                      auto margin = [&](const point::PointResult& r, const gaussian::StandardForm& bare, double d) {
                         if (!usable(r)) return -1.0;
                         // A separable result cannot gain entanglement (both are 0 there: no
                         // break-even beyond survival), and a fidelity that is only its bound 1/2
@@ -182,6 +205,10 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
                           case en_vs_bare: return r.log_negativity - gaussian::log_negativity(bare);
                           case f_vs_bare: return r.fidelity - gaussian::fidelity(bare);
                           case f_vs_half: return r.fidelity - 0.5;
+                          case en_vs_relay:
+                            return r.log_negativity - gaussian::log_negativity(point::relay_state(source, sc.link.model, d));
+                          case f_vs_relay:
+                            return r.fidelity - gaussian::fidelity(point::relay_state(source, sc.link.model, d));
                         }
                         return -1.0;
                       };
@@ -192,12 +219,12 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
                         std::size_t flat = 0;
                         for (std::size_t a = 0; a < idx.size(); ++a) flat = flat * pp.axes[a].values.size() + idx[a];
                         values.push_back(table.done[flat]
-                                             ? margin(table.points[flat], point::bare_state(sweep::resolve(sc, plan, p, idx)))
+                                             ? margin(table.points[flat], point::bare_state(sweep::resolve(sc, plan, p, idx)), grid[di])
                                              : -1.0);
                       }
                       auto fn = [&](double d) {
                         const point::PointSpec spec = sweep::resolve(sc, plan, p, best_index[p], d);
-                        return margin(point::evaluate(spec), point::bare_state(spec));
+                        return margin(sweep::evaluate_point(sc, plan, p, best_index[p], d), point::bare_state(spec), d);
                       };
                       crossings[j] = last_downward_crossing(fn, grid, values, tol);
                     },
@@ -232,9 +259,13 @@ Verdict compute(const scenario::Scenario& sc, const sweep::Plan& plan, std::span
           pv.slice_bare_log_negativity.push_back(gaussian::log_negativity(job.bare));
         }
     }
-    pv.breakeven_log_negativity = crossings[3 * p + en_vs_bare];
-    pv.breakeven_fidelity = crossings[3 * p + f_vs_bare];
-    pv.fidelity_half = crossings[3 * p + f_vs_half];
+    pv.breakeven_log_negativity = crossings[nf * p + en_vs_bare];
+    pv.breakeven_fidelity = crossings[nf * p + f_vs_bare];
+    pv.fidelity_half = crossings[nf * p + f_vs_half];
+    if (compared_with_relay(p) && grid.size() > 1) {
+      pv.breakeven_relay_log_negativity = crossings[nf * p + en_vs_relay];
+      pv.breakeven_relay_fidelity = crossings[nf * p + f_vs_relay];
+    }
     pv.summary = summarise(sc.protocols.at(p), pv, v);
   }
   return v;

@@ -25,6 +25,7 @@ OWNER = {
     "steps.hpp": "steps",
     "exact.hpp": "exact",
     "point.hpp": "point",
+    "relay.hpp": "point",
     "scenario.hpp": "scenario",
     "sweep.hpp": "sweep",
     "tune.hpp": "sweep",
