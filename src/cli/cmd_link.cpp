@@ -1,5 +1,6 @@
 // `heraldry link SCENARIO`: the link budget and the Gaussian (no distillation) figures versus
 // distance, with the distances where entanglement and fidelity above 1/2 end.
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <functional>
@@ -144,39 +145,33 @@ int cmd_check(const std::string& path) {
   }
   std::printf("  total: %zu points\n", plan.total_points());
 
-  // The cutoff the bare link's state needs at each distance (Gaussian estimate; heralded
-  // states have heavier tails and need more, which the run finds itself).
+  // The checks run makes before any work (the same function: check and run agree), and the
+  // cutoff the bare link's state needs at each distance (Gaussian estimate; heralded states
+  // have heavier tails and need more, which the run finds itself).
+  const Preflight pf = preflight(sc);
   const point::Numerics numerics = sweep::numerics_of(sc);
-  const fock::Engine engine = numerics.engine;
   const double tol = numerics.tolerance;
-  const double max_bytes = numerics.max_memory_bytes;
-  const point::Source source = sweep::source_of(sc);
-  int lo = 0, hi = 0;
-  double at = grid.front();
-  for (double d : grid) {
-    int n = 0;
-    try {
-      n = fock::auto_cutoff_gaussian(point::bare_state(source, sc.link.model, d), tol * tol, engine, max_bytes);
-    } catch (const fock::CutoffError& e) {
-      throw InputError(path, 0, "numerics.max_memory_mb", std::to_string(sc.numerics.max_memory_mb),
-                       "room for the states the run needs", std::string(e.what()) + " at " + std::to_string(d) + " m");
-    }
-    if (lo == 0 || n < lo) lo = n;
-    if (n > hi) {
-      hi = n;
-      at = d;
-    }
-  }
+  const int max_cutoff = sc.numerics.max_cutoff;
+  auto cutoff_text = [&](int n) { return n > max_cutoff ? "more than " + std::to_string(max_cutoff) : std::to_string(n); };
+  const std::string range = pf.cutoff_lo == pf.cutoff_hi ? cutoff_text(pf.cutoff_hi)
+                                                        : cutoff_text(pf.cutoff_lo) + ".." + cutoff_text(pf.cutoff_hi);
+  const std::string surveyed =
+      pf.survey_distances < grid.size() ? " (at " + std::to_string(pf.survey_distances) + " of the distances)" : "";
   if (sc.numerics.cutoff > 0) {
-    std::printf("  cutoff: fixed at %d (the bare link needs %d..%d for tolerance %.3g)\n", sc.numerics.cutoff, lo, hi, tol);
+    std::printf("  cutoff: fixed at %d (the bare link needs %s for tolerance %.3g%s)\n", sc.numerics.cutoff,
+                range.c_str(), tol, surveyed.c_str());
   } else {
-    std::printf("  cutoff: auto; the bare link needs %d..%d for tolerance %.3g (largest at %.4g m, %s per state);\n"
+    std::printf("  cutoff: auto; the bare link needs %s for tolerance %.3g (largest at %.4g m, %s per state)%s;\n"
                 "          heralded states need more; the run stops at max_cutoff = %d\n",
-                lo, hi, tol, at, mebibytes(fock::memory_bytes_for(engine, hi)).c_str(), sc.numerics.max_cutoff);
-    if (hi > sc.numerics.max_cutoff)
-      std::printf("  warning: points beyond the bare link's cutoff %d > max_cutoff %d will miss the tolerance\n", hi,
-                  sc.numerics.max_cutoff);
+                range.c_str(), tol, pf.cutoff_at_m,
+                mebibytes(fock::memory_bytes_for(numerics.engine, std::min(pf.cutoff_hi, max_cutoff))).c_str(),
+                surveyed.c_str(), max_cutoff);
+    if (pf.cutoff_hi > max_cutoff)
+      std::printf("  warning: points where the bare link needs more than max_cutoff = %d will miss the tolerance "
+                  "(exit code 3)\n",
+                  max_cutoff);
   }
+  for (const std::string& w : pf.warnings) std::printf("  warning: %s\n", w.c_str());
   return 0;
 }
 

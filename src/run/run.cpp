@@ -83,15 +83,20 @@ std::vector<sweep::Job> ordered_jobs(const scenario::Scenario& sc, const sweep::
     }
   const point::Source source = sweep::source_of(sc);
   std::vector<double> distance_cost;
+  // Bounded in time by max_cutoff: one trace deficit there says whether the point needs more
+  // (then max_cutoff is its cost), and only otherwise is the cutoff found below it.
+  const int max_cutoff = sc.numerics.max_cutoff;
+  const double tol2 = sc.numerics.tolerance * sc.numerics.tolerance;
   for (double d : sc.link.distances_m) {
-    double n = 10.0;
+    double n = max_cutoff;
     try {
-      n = fock::auto_cutoff_gaussian(point::bare_state(source, sc.link.model, d),
-                                     sc.numerics.tolerance * sc.numerics.tolerance, fock::Engine::sector, 1e18);
+      const gaussian::StandardForm s = point::bare_state(source, sc.link.model, d);
+      if (fock::gaussian_trace_deficit(s, max_cutoff) < tol2)
+        n = fock::auto_cutoff_gaussian(s, tol2, fock::Engine::sector, 1.01 * fock::memory_bytes_for(fock::Engine::sector, max_cutoff));
     } catch (const std::exception&) {
-      n = sc.numerics.max_cutoff;
+      n = max_cutoff;
     }
-    distance_cost.push_back(std::pow(std::min<double>(n, sc.numerics.max_cutoff), 3.5));
+    distance_cost.push_back(std::pow(std::min<double>(n, max_cutoff), 3.5));
   }
   std::vector<double> cost(jobs.size());
   for (std::size_t j = 0; j < jobs.size(); ++j) {

@@ -9,6 +9,7 @@
 #include <fstream>
 #include <iostream>
 #include <iterator>
+#include <limits>
 #include <memory>
 #include <sstream>
 
@@ -57,6 +58,10 @@ constexpr double celsius_zero_k = 273.15;
 
 // The largest per-mode cutoff the engine accepts; also bounds the photon numbers a step may name.
 constexpr int max_cutoff = 400;
+
+// The largest numerics.max_points a scenario may set: a run holds every point's result in
+// memory (a few hundred bytes each), so 1e9 points are already hundreds of GB.
+constexpr std::int64_t max_points_ceiling = 1000000000;
 
 const Bounds unit_closed = Bounds::closed(0.0, 1.0);
 const Bounds unit_open_closed = {0.0, 1.0, true, false};   // (0, 1]
@@ -686,7 +691,7 @@ Numerics read_numerics(const Table& root) {
   Numerics n;
   const auto t = root.table("numerics");
   if (!t) return n;
-  t->only({"engine", "cutoff", "tolerance", "threads", "max_memory_mb", "max_cutoff"});
+  t->only({"engine", "cutoff", "tolerance", "threads", "max_memory_mb", "max_cutoff", "max_points"});
   n.engine = t->choice("engine", {"sector", "dense"}).value_or(0) == 0 ? EngineKind::sector : EngineKind::dense;
   if (const toml::node* c = t->find("cutoff")) {
     const std::string expected = "\"auto\" or an integer in [1, " + std::to_string(max_cutoff) + "]";
@@ -705,7 +710,54 @@ Numerics read_numerics(const Table& root) {
   n.threads = static_cast<int>(t->integer("threads", 0, 1024).value_or(n.threads));
   n.max_memory_mb = t->number_or("max_memory_mb", {0.0, 1.0e7, true, false}, n.max_memory_mb);
   n.max_cutoff = static_cast<int>(t->integer("max_cutoff", 1, max_cutoff).value_or(n.max_cutoff));
+  n.max_points = t->integer("max_points", 1, max_points_ceiling).value_or(n.max_points);
   return n;
+}
+
+// The size of each protocol's grid, axis by axis as sweep::make_plan lays it out (distance,
+// swept source and link settings, swept step parameters, then per counter the protocol uses:
+// efficiency, dark rate or dark count per gate, gate and dead time), multiplied with overflow
+// checks. A grid above numerics.max_points (or one whose count overflows) is refused naming the
+// protocol, its axes and their sizes.
+void check_grid_sizes(const Table& root, const Scenario& s) {
+  const toml::array& list = *root.find("protocol")->as_array();
+  for (std::size_t i = 0; i < s.protocols.size(); ++i) {
+    const Protocol& proto = s.protocols[i];
+    std::vector<std::pair<std::string, std::size_t>> axes{{"distance_m", s.link.distances_m.size()}};
+    for (const SweptSetting& st : s.settings)
+      if (st.counter.empty()) axes.emplace_back(st.name, st.values.size());
+    for (const Step& step : proto.steps)
+      for (std::size_t k = 0; k < step.params.size(); ++k)
+        if (step.params[k].swept())
+          axes.emplace_back(step.label + "." + std::string(step.type->params[k].key), step.params[k].values.size());
+    for (const Counter& c : s.counters) {
+      if (std::none_of(proto.steps.begin(), proto.steps.end(), [&](const Step& st) { return st.counter == c.name; }))
+        continue;
+      if (c.efficiency.swept()) axes.emplace_back("counters." + c.name + ".efficiency", c.efficiency.values.size());
+      if (c.dark_rate_hz && c.dark_rate_hz->swept())
+        axes.emplace_back("counters." + c.name + ".dark_rate_hz", c.dark_rate_hz->values.size());
+      else if (c.dark_per_gate.swept())
+        axes.emplace_back("counters." + c.name + ".dark_per_gate", c.dark_per_gate.values.size());
+      for (const SweptSetting& st : s.settings)
+        if (st.counter == c.name) axes.emplace_back(st.name, st.values.size());
+    }
+    const auto limit = static_cast<std::size_t>(s.numerics.max_points);
+    std::size_t count = 1;
+    bool overflow = false;
+    std::string sizes;
+    for (const auto& [name, n] : axes) {
+      sizes += (sizes.empty() ? "" : " x ") + name + " " + std::to_string(n);
+      if (!overflow && n != 0 && count > std::numeric_limits<std::size_t>::max() / n) overflow = true;
+      if (!overflow) count *= n;
+    }
+    if (!overflow && count <= limit) continue;
+    const Table p(root.doc(), *list.get(i)->as_table(), "protocol[" + std::to_string(i) + "]",
+                  Document::line(*list.get(i)));
+    p.fail("name", "a grid of at most numerics.max_points = " + std::to_string(limit) + " points",
+           "its grid has " + (overflow ? std::string("more than 1.8e19") : std::to_string(count)) + " points: " + sizes +
+               "; use fewer values on an axis, or raise numerics.max_points (at most " +
+               std::to_string(max_points_ceiling) + ")");
+  }
 }
 
 Output read_output(const Table& root) {
@@ -736,6 +788,7 @@ Scenario parse(std::string_view text, const std::string& file_name) {
   s.counters = read_counters(root, s.settings);
   s.protocols = read_protocols(root, s.counters);
   s.numerics = read_numerics(root);
+  check_grid_sizes(root, s);
   s.output = read_output(root);
   return s;
 }
