@@ -312,6 +312,15 @@ link::Air read_air(const Table& a) {
   air.pressure_hpa = a.number_or("pressure_hpa", pressure_hpa_bounds, air.pressure_hpa);
   air.water_vapour_gm3 = a.number_or("water_vapour_gm3", vapour_bounds, air.water_vapour_gm3);
   air.rain_mm_per_h = a.number_or("rain_mm_per_h", rain_bounds, air.rain_mm_per_h);
+  // The gas model splits the total pressure into dry air and water vapour: the total cannot be
+  // below the vapour's partial pressure e = rho T / 216.7 (ITU-R P.676-13 Annex 1, Eq. 4).
+  if (air.model == link::AirModel::itu) {
+    const double e = link::vapour_pressure_hpa(air.water_vapour_gm3, air.temperature_k);
+    if (!(air.pressure_hpa >= e))
+      a.fail(a.has("pressure_hpa") ? "pressure_hpa" : "water_vapour_gm3",
+             "a barometric (total) pressure >= the water-vapour partial pressure (" + detail::format_number(e) +
+                 " hPa here: water_vapour_gm3 x temperature / 216.7)");
+  }
   const auto fixed = a.number("attenuation_db_per_km", db_per_km_bounds);
   if (air.model == link::AirModel::fixed) {
     if (!fixed) a.missing("attenuation_db_per_km", db_per_km_bounds.number_text() + " with model = \"fixed\"");
@@ -388,6 +397,18 @@ Link read_link(const Table& root, const Source& source, std::vector<SweptSetting
   if (const auto a = t.table("air")) {
     if (m.medium != link::Medium::air) t.fail("air", air_only, "a cryogenic line has no air path");
     m.air = read_air(*a);
+  }
+  // The ITU-R gas and rain models hold from 1 to 1000 GHz (P.676-13 Annex 1, P.838-3): a carrier
+  // outside is refused at its own key, before any kernel sees it.
+  if (m.medium == link::Medium::air && m.air.model == link::AirModel::itu) {
+    const Table src = required_table(root, "source", "a [source] table");
+    for (const Mode mode : {Mode::A, Mode::B}) {
+      const double f = link::mode_frequency_hz(m, mode);
+      if (f >= 1e9 && f <= 1e12) continue;
+      const char* own = mode == Mode::A ? "frequency_a_ghz" : "frequency_b_ghz";
+      src.fail(src.has(own) ? own : "frequency_ghz", "a frequency within 1-1000 GHz with the ITU-R air model",
+               "the range of ITU-R P.676-13 Annex 1 and P.838-3; set [link.air] model = \"fixed\" outside it");
+    }
   }
   if (const auto l = t.table("line")) {
     if (m.medium != link::Medium::line) t.fail("line", "no such table with medium = \"air\"", "set medium = \"line\"");
