@@ -161,3 +161,22 @@ TEST_CASE("check and run agree on a memory limit the bare link's states cannot f
   CHECK_FALSE(fs::exists(dir / "r.h5"));
   fs::remove_all(dir);
 }
+
+TEST_CASE("absurd thread counts are bounded: 2147483647 in the scenario or on the command line is refused, in OMP_NUM_THREADS held to 1024") {
+  const fs::path dir = scratch("threads");
+  const fs::path sc = write(dir, "s.toml", line_scenario(2, 2));
+  const fs::path absurd = write(dir, "t.toml", line_scenario(2, 2, "threads = 2147483647\n"));
+  const Outcome in_file = run_tool("check \"" + absurd.string() + "\"");
+  CHECK(in_file.code == 2);
+  CHECK(in_file.output.find("key 'numerics.threads' = 2147483647: expected an integer in [0, 1024]") != std::string::npos);
+  const Outcome on_line = run_tool("run \"" + sc.string() + "\" -o \"" + (dir / "a.h5").string() + "\" --threads 2147483647");
+  CHECK(on_line.code == 2);
+  CHECK_FALSE(fs::exists(dir / "a.h5"));
+  // libgomp alone would try to allocate a pool of 2^31 threads (481 GB) and end the process.
+  const Outcome env = testing::run_tool_env("OMP_NUM_THREADS=2147483647 ",
+                                            "run \"" + sc.string() + "\" -o \"" + (dir / "b.h5").string() + "\"");
+  CAPTURE(env.output);
+  CHECK(env.code == 0);
+  CHECK(fs::exists(dir / "b.h5"));
+  fs::remove_all(dir);
+}

@@ -91,8 +91,10 @@ const Bounds db_per_km_bounds = Bounds::closed(0.0, 1.0e4);
 const Bounds db_per_m_bounds = Bounds::closed(0.0, 1.0e3);
 const Bounds diameter_bounds = {0.0, 1000.0, true, false};         // m
 const Bounds distance_bounds = Bounds::closed(0.0, 1.0e7);         // m
-const Bounds loss_db_bounds = Bounds::closed(0.0, 300.0);
-const Bounds return_loss_bounds = {0.0, 300.0, true, false};
+// Losses in dB become power fractions below 1: 1 - 10^(-L/10) rounds to 1 beyond ~156 dB, and
+// 10^(-RL/10) of a return loss rounds to 1 below ~1e-15 dB (the kernels refuse a fraction of 1).
+const Bounds loss_db_bounds = Bounds::closed(0.0, 150.0);
+const Bounds return_loss_bounds = Bounds::closed(1e-9, 300.0);
 
 // A hardware number that may be swept: returns its first value as written; a list or range
 // also becomes a SweptSetting (an axis) applied by `apply` to copies of the structs.
