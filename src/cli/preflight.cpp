@@ -70,6 +70,26 @@ Preflight preflight(const scenario::Scenario& sc) {
     out.warnings.push_back("a large grid: " + std::to_string(out.points) + " points in all; the checkpoint holds about " +
                            mebibytes(out.checkpoint_bytes) + " and is rewritten as the run goes");
 
+  // Every value of a swept source or link setting reaches the link model the kernels check: a
+  // value they refuse is named by the setting's own key (not the kernel's field) before any work.
+  for (const scenario::SweptSetting& st : sc.settings) {
+    if (!st.counter.empty()) continue;
+    for (double v : st.values) {
+      scenario::Source src = sc.source;
+      link::LinkModel model = sc.link.model;
+      scenario::Counter none;
+      st.apply(src, model, none, v);
+      try {
+        (void)point::bare_state(sweep::source_of(src), model, sc.link.distances_m.front());
+      } catch (const InputError& e) {
+        char value[32];
+        std::snprintf(value, sizeof value, "%.10g", v);
+        throw InputError(sc.path, 0, st.name, value, e.expected(),
+                         "at this value of the swept setting" + (e.hint().empty() ? std::string() : "; " + e.hint()));
+      }
+    }
+  }
+
   // Memory: the auto cutoff never exceeds max_cutoff; a state at the cutoff the bare link needs
   // (bounded by max_cutoff) that does not fit in max_memory_mb would otherwise be cut down
   // silently to the memory limit at every point. Heralded states need more than the bare link:

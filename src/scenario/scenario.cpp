@@ -78,7 +78,9 @@ Table required_table(const Table& parent, std::string_view member, const std::st
 // Domain bounds: every value the kernels receive is one they can represent (finite sums,
 // products and exponentials, no overflow of 2 n + 1 or of rate x gate). The bounds are wide
 // physical ones; each is named in its key's message.
-const Bounds frequency_ghz_bounds = {0.0, 1000.0, true, false};    // (0, 1000] GHz
+// From 10 MHz: below it a room-temperature (10^4 K at most) bath holds more than ~10^7 photons
+// and a 5e-324 GHz carrier gives an infinite Planck occupation.
+const Bounds frequency_ghz_bounds = Bounds::closed(0.01, 1000.0);  // GHz
 const Bounds squeezing_db_bounds = Bounds::closed(0.0, 30.0);
 const Bounds occupation_bounds = Bounds::closed(0.0, 1.0e7);       // thermal photons per mode
 const Bounds bandwidth_mhz_bounds = {0.0, 1.0e6, true, false};     // up to 1 THz
@@ -405,8 +407,9 @@ Link read_link(const Table& root, const Source& source, std::vector<SweptSetting
   if (m.medium == link::Medium::air && m.air.model == link::AirModel::itu) {
     const Table src = required_table(root, "source", "a [source] table");
     for (const Mode mode : {Mode::A, Mode::B}) {
-      const double f = link::mode_frequency_hz(m, mode);
-      if (f >= 1e9 && f <= 1e12) continue;
+      // In GHz as the link model computes it (f x 1e-9: 1000 GHz becomes 1000.0000000000001).
+      const double f_ghz = link::mode_frequency_hz(m, mode) * 1e-9;
+      if (f_ghz >= 1.0 && f_ghz <= 1000.0) continue;
       const char* own = mode == Mode::A ? "frequency_a_ghz" : "frequency_b_ghz";
       src.fail(src.has(own) ? own : "frequency_ghz", "a frequency within 1-1000 GHz with the ITU-R air model",
                "the range of ITU-R P.676-13 Annex 1 and P.838-3; set [link.air] model = \"fixed\" outside it");
