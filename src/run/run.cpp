@@ -68,7 +68,8 @@ Summary serve_rank(const scenario::Scenario& sc, const Options& options) {
 
 // Most expensive points first (longest-processing-time order): chunks then hold points of
 // similar cost and the threads rarely wait for one slow point at a chunk boundary. The cost
-// model is the Gaussian cutoff of the bare link at the point's distance, ~N^3.5 per step.
+// model is the (estimated) Gaussian cutoff of the bare link at the point's distance, ~N^3.5 per
+// step.
 // The order changes nothing in the results: each point writes its own slot.
 std::vector<sweep::Job> ordered_jobs(const scenario::Scenario& sc, const sweep::Plan& plan,
                                      const output::RunData& data, Summary& summary) {
@@ -83,20 +84,23 @@ std::vector<sweep::Job> ordered_jobs(const scenario::Scenario& sc, const sweep::
     }
   const point::Source source = sweep::source_of(sc);
   std::vector<double> distance_cost;
-  // Bounded in time by max_cutoff: one trace deficit there says whether the point needs more
-  // (then max_cutoff is its cost), and only otherwise is the cutoff found below it.
-  const int max_cutoff = sc.numerics.max_cutoff;
-  const double tol2 = sc.numerics.tolerance * sc.numerics.tolerance;
+  // O(1) per distance (a grid may have a million): the cutoff the marginal tails of the bare
+  // link's state ask for, q^(N+1) = tolerance^2 with q = max(q_A, q_B) the larger thermal ratio
+  // (the lower bound auto_cutoff_gaussian starts from), at most max_cutoff. Only the order of
+  // the points depends on it.
+  const double max_cutoff = sc.numerics.max_cutoff;
+  const double log_tol2 = 2.0 * std::log(sc.numerics.tolerance);
   for (double d : sc.link.distances_m) {
     double n = max_cutoff;
     try {
       const gaussian::StandardForm s = point::bare_state(source, sc.link.model, d);
-      if (fock::gaussian_trace_deficit(s, max_cutoff) < tol2)
-        n = fock::auto_cutoff_gaussian(s, tol2, fock::Engine::sector, 1.01 * fock::memory_bytes_for(fock::Engine::sector, max_cutoff));
+      const double q = std::max({0.0, (s.a - 1.0) / (s.a + 1.0), (s.b - 1.0) / (s.b + 1.0)});
+      const double log_q = std::log(q);  // -inf for the vacuum, 0 when q rounds to 1
+      n = log_q < 0.0 ? std::clamp(log_tol2 / log_q, 1.0, max_cutoff) : max_cutoff;
     } catch (const std::exception&) {
       n = max_cutoff;
     }
-    distance_cost.push_back(std::pow(std::min<double>(n, max_cutoff), 3.5));
+    distance_cost.push_back(std::pow(n, 3.5));
   }
   std::vector<double> cost(jobs.size());
   for (std::size_t j = 0; j < jobs.size(); ++j) {
