@@ -218,7 +218,9 @@ link::Channel read_channel(const Table& direct, std::string_view mode) {
   const Table c = required_table(direct, mode, "a { transmissivity, bath_photons } table");
   c.only({"transmissivity", "bath_photons", "added_photons"});
   link::Channel ch;
-  ch.transmissivity = c.required_number("transmissivity", unit_closed);
+  // (0, 1]: a channel that transmits nothing has no state at its output to speak of (the link
+  // model refuses it).
+  ch.transmissivity = c.required_number("transmissivity", unit_open_closed);
   if (c.has("bath_photons") && c.has("added_photons"))
     c.fail("added_photons", "only one of bath_photons and added_photons");
   ch.bath_photons = c.number_or("bath_photons", occupation_bounds, 0.0);
