@@ -349,7 +349,7 @@ def main():
             elif p.returncode == 0 and base.endswith("_tiny"):
                 m = re.search(r"total: (\d+) points", p.stdout)
                 small = m is not None and int(m.group(1)) <= 60
-                bounded = "max_cutoff = 30" in p.stdout or re.search(r"cutoff: fixed at ([0-9]|1[0-9]|2[0-9]|30) ", p.stdout)
+                bounded = re.search(r"max_cutoff = 30\b", p.stdout) or re.search(r"cutoff: fixed at ([0-9]|[12][0-9]|30) ", p.stdout)
                 # The dense engine is the reference (O(N^4) memory, minutes at N = 30): not run here.
                 if small and bounded and "dense" not in open(path, encoding="utf-8", errors="replace").read():
                     accepted_tiny.append((path, applied))
