@@ -178,7 +178,7 @@ std::string run_scenario(const PyScenario& s, const std::string& output, int thr
   ro.version = HERALDRY_VERSION;
   // The checks `heraldry run` makes before any work.
   cli::preflight_output(*sc, ro.output.empty() ? sc->output.file : ro.output);
-  cli::preflight_memory(*sc);
+  (void)cli::preflight(*sc);  // grid size, swept settings, memory: what the command line checks
   const run::Summary summary = interruptible<run::Summary>([&] { return run::execute(*sc, ro); }, [] { run::request_stop(); });
   if (summary.interrupted) {
     // A stop that did not come from Ctrl-C here (none other is possible from Python): say so.

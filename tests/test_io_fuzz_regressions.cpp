@@ -3,6 +3,7 @@
 // valid neighbours of each (non-ASCII text where TOML 1.0 allows it) still parse.
 #include <doctest/doctest.h>
 
+#include <cmath>
 #include <string>
 
 #include "heraldry/scenario.hpp"
@@ -67,4 +68,23 @@ TEST_CASE("a UTF-8 byte-order mark at the start of a scenario is accepted") {
   // TOML 1.0 files are UTF-8 (common practice: editors on Windows write the mark).
   const Scenario s = parse("\xEF\xBB\xBF" + scenario_text("title = \"bom\""), "f.toml");
   CHECK(s.title == "bom");
+}
+
+TEST_CASE("a log range whose ratio overflows a double (from = 5e-324) gives finite values, the ends as written") {
+  // Mutation-campaign finding (tests/campaign/mutate.py, seed 2): reset_us = { from = 5e-324,
+  // to = 1, points = 3, scale = "log" } spaced as from x (to/from)^u gave inf (to/from overflows),
+  // and the run ended with an internal key 'counters[0].reset'. Geometric spacing (closed form):
+  // the midpoint of a log range is sqrt(from x to) = exp((ln from + ln to) / 2).
+  const std::string text = scenario_text("title = \"x\"") +
+                           "[numerics]\ntolerance = 1e-4\n";
+  std::string with_range = text;
+  with_range.replace(with_range.find("efficiency = 0.5\n"), 17,
+                     "efficiency = 0.5\ngate_ns = 100\nreset_us = { from = 5e-324, to = 1, points = 3, scale = \"log\" }\n");
+  const Scenario sc = parse(with_range, "f.toml");
+  REQUIRE(sc.settings.size() == 1);
+  const auto& v = sc.settings[0].values;
+  REQUIRE(v.size() == 3);
+  CHECK(v[0] == 5e-324);
+  CHECK(v[2] == 1.0);
+  CHECK(v[1] == doctest::Approx(std::exp(0.5 * std::log(5e-324))).epsilon(1e-12));
 }

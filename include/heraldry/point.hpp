@@ -146,12 +146,6 @@ gaussian::StandardForm bare_state(const PointSpec& spec);
 gaussian::StandardForm bare_state(const Source& source, const link::LinkBudget& budget);
 gaussian::StandardForm bare_state(const Source& source, const link::LinkModel& model, double distance_m);
 
-/// The Fock cutoff the bare link's state `form` needs for the tolerance (the Gaussian estimate,
-/// fock::auto_cutoff_gaussian), searched no further than numerics.max_cutoff + 1 (returned when
-/// the tolerance needs more: the points will be flagged) or the memory allowed; nullopt when the
-/// state is separable (heralded steps on it take the exact paths, no Fock state is built).
-std::optional<int> bare_cutoff_estimate(const gaussian::StandardForm& form, const Numerics& numerics);
-
 /// Signed log-negativity -log2 nu~_- of the bare link (negative when separable): smooth through
 /// the threshold, so root finding can refine where E_N vanishes.
 double bare_signed_log_negativity(const Source& source, const link::LinkModel& model, double distance_m);

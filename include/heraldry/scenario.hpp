@@ -2,6 +2,7 @@
 // typed and validated, in SI units. Only src/scenario knows the file format (TOML).
 #pragma once
 
+#include <cstdint>
 #include <functional>
 #include <optional>
 #include <string>
@@ -130,6 +131,9 @@ struct Numerics {
   int threads = 0;                      // 0: OMP_NUM_THREADS or all cores
   double max_memory_mb = 4096.0;        // the auto cutoff refuses to exceed this per state
   int max_cutoff = 160;                 // the auto cutoff refuses to exceed this (time bound)
+  /// The largest grid (points of one protocol) a scenario may ask for; parse refuses larger
+  /// grids, and grids whose point count overflows, naming the axes and their sizes.
+  std::int64_t max_points = 10000000;
 };
 
 struct Output {

@@ -1,5 +1,6 @@
 // `heraldry link SCENARIO`: the link budget and the Gaussian (no distillation) figures versus
 // distance, with the distances where entanglement and fidelity above 1/2 end.
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <functional>
@@ -194,45 +195,42 @@ int cmd_check(const std::string& path) {
     std::printf("\n");
   }
   std::printf("  total: %zu points\n", plan.total_points());
-  // The cutoff the bare link's state needs at each distance (Gaussian estimate; heralded
-  // states have heavier tails and need more, which the run finds itself).
+
+  // The checks run makes before any work (the same function: check and run agree), and the
+  // cutoff the bare link's state needs at each distance (Gaussian estimate; heralded states
+  // have heavier tails and need more, which the run finds itself).
+  const Preflight pf = preflight(sc);
   const point::Numerics numerics = sweep::numerics_of(sc);
-  const fock::Engine engine = numerics.engine;
   const double tol = numerics.tolerance;
-  const point::Source source = sweep::source_of(sc);
-  int lo = 0, hi = 0;
-  double at = grid.front();
-  std::size_t separable = 0;
-  for (double d : grid) {
-    const std::optional<int> estimate = point::bare_cutoff_estimate(point::bare_state(source, sc.link.model, d), numerics);
-    if (!estimate) {
-      ++separable;
-      continue;
-    }
-    const int n = *estimate;
-    if (lo == 0 || n < lo) lo = n;
-    if (n > hi) {
-      hi = n;
-      at = d;
-    }
-  }
-  if (separable > 0)
-    std::printf("  %zu of %zu distances are separable: exact results there (E_N = 0; P from the photon-number or "
+  const int max_cutoff = sc.numerics.max_cutoff;
+  auto cutoff_text = [&](int n) { return n > max_cutoff ? "more than " + std::to_string(max_cutoff) : std::to_string(n); };
+  const std::string range = pf.cutoff_lo == pf.cutoff_hi ? cutoff_text(pf.cutoff_hi)
+                                                        : cutoff_text(pf.cutoff_lo) + ".." + cutoff_text(pf.cutoff_hi);
+  const std::string surveyed =
+      pf.survey_distances < grid.size() ? " (at " + std::to_string(pf.survey_distances) + " of the distances)" : "";
+  if (pf.separable_distances > 0)
+    std::printf("  %zu of %zu distances%s are separable: exact results there (E_N = 0; P from the photon-number or "
                 "Gaussian-sum path), no Fock state\n",
-                separable, grid.size());
-  if (separable == grid.size()) return 0;
-  if (sc.numerics.cutoff > 0) {
-    std::printf("  cutoff: fixed at %d (the bare link needs %d..%d for tolerance %.3g)\n", sc.numerics.cutoff, lo, hi, tol);
+                pf.separable_distances, pf.survey_distances, pf.survey_distances < grid.size() ? " surveyed" : "");
+  const bool all_separable = pf.separable_distances == pf.survey_distances;
+  if (all_separable) {
+    // Nothing to report on cutoffs: no point builds a Fock state of the bare link.
+  } else if (sc.numerics.cutoff > 0) {
+    std::printf("  cutoff: fixed at %d (the bare link needs %s for tolerance %.3g%s)\n", sc.numerics.cutoff,
+                range.c_str(), tol, surveyed.c_str());
   } else {
-    std::printf("  cutoff: auto; the bare link needs %d..%d for tolerance %.3g (largest at %.4g m, %s per state);\n"
+    std::printf("  cutoff: auto; the bare link needs %s for tolerance %.3g (largest at %.4g m, %s per state)%s;\n"
                 "          heralded states need more; the run stops at max_cutoff = %d\n",
-                lo, hi, tol, at, mebibytes(fock::memory_bytes_for(engine, hi)).c_str(), sc.numerics.max_cutoff);
-    if (hi > sc.numerics.max_cutoff)
-      std::printf("  warning: near %.4g m the bare link needs a cutoff above max_cutoff = %d: those points will keep "
-                  "their figures flagged as missing the tolerance (raise numerics.max_cutoff, loosen "
+                range.c_str(), tol, pf.cutoff_at_m,
+                mebibytes(fock::memory_bytes_for(numerics.engine, std::min(pf.cutoff_hi, max_cutoff))).c_str(),
+                surveyed.c_str(), max_cutoff);
+    if (pf.cutoff_hi > max_cutoff)
+      std::printf("  warning: near %.4g m the bare link needs a cutoff above max_cutoff = %d: those points keep their "
+                  "figures flagged as missing the tolerance, exit code 3 (raise numerics.max_cutoff, loosen "
                   "numerics.tolerance, or move the distance axis)\n",
-                  at, sc.numerics.max_cutoff);
+                  pf.cutoff_at_m, max_cutoff);
   }
+  for (const std::string& w : pf.warnings) std::printf("  warning: %s\n", w.c_str());
   // The run time: the cost model calibrated by timing a few points (about 0.3 s here).
   const run::Estimate est = run::estimate(sc, 0.3);
   const int threads = sweep::thread_count(sc.numerics.threads);

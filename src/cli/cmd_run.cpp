@@ -74,14 +74,18 @@ int run_on_ranks(const RunOptions& options, ranks::Session& session) {
 
   // Every rank checks (the same input gives the same refusal everywhere, so no rank waits for
   // another); only rank 0 says why.
+  Preflight pf;
   try {
     preflight_output(sc, ro.output.empty() ? sc.output.file : ro.output);
-    preflight_memory(sc);
+    pf = preflight(sc);
   } catch (const InputError&) {
     if (coordinator) throw;
     return 2;
   }
-  if (coordinator) std::fprintf(stderr, "heraldry run: %s\n", sc.title.c_str());
+  if (coordinator) {
+    std::fprintf(stderr, "heraldry run: %s\n", sc.title.c_str());
+    for (const std::string& w : pf.warnings) std::fprintf(stderr, "heraldry run: warning: %s\n", w.c_str());
+  }
   const run::Summary s = run::execute(sc, ro);
   if (s.worker) return 0;  // rank 0 reports for the whole run
   if (s.interrupted) {

@@ -57,8 +57,22 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
 
 /// Before any work: the result file's folder exists or can be created (InputError otherwise).
 void preflight_output(const scenario::Scenario& sc, const std::string& file);
-/// Before any work: the states at the cutoff the bare link needs (bounded by max_cutoff), or
-/// at the fixed cutoff, fit in max_memory_mb; InputError naming the cutoff and memory otherwise.
-void preflight_memory(const scenario::Scenario& sc);
+/// What `check` and `run` both establish before any work (one function, so they agree).
+struct Preflight {
+  std::size_t points = 0;         // of every protocol's grid
+  double checkpoint_bytes = 0.0;  // about: 8 bytes per figure per point
+  /// The cutoff the bare link needs for the tolerance, smallest and largest over the distances
+  /// surveyed (max_cutoff + 1 means: more than max_cutoff), and where the largest is.
+  int cutoff_lo = 0, cutoff_hi = 0;
+  double cutoff_at_m = 0.0;
+  std::size_t survey_distances = 0;  // distances the survey looked at (at most 512, spread)
+  std::size_t separable_distances = 0;  // of those, where the bare link is separable (no Fock state)
+  std::vector<std::string> warnings;
+};
+/// Before any work: the grid's size (warned about when large; parse refused what is above
+/// numerics.max_points), and the states at the cutoff the bare link needs (bounded by
+/// max_cutoff), or at the fixed cutoff, fit in max_memory_mb: InputError naming the cutoff and
+/// memory otherwise. Bounded in time: no trace deficit beyond max_cutoff is evaluated.
+Preflight preflight(const scenario::Scenario& sc);
 
 }  // namespace heraldry::cli

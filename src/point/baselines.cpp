@@ -32,18 +32,6 @@ gaussian::StandardForm bare_state(const Source& source, const link::LinkModel& m
   return bare_state(source, link::link_budget(model, distance_m));
 }
 
-std::optional<int> bare_cutoff_estimate(const gaussian::StandardForm& form, const Numerics& numerics) {
-  if (gaussian::smallest_pt_symplectic(form) >= 1.0 - 1e-13) return std::nullopt;
-  const int top = std::max(1, numerics.max_cutoff) + 1;
-  const double bound = std::min(numerics.max_memory_bytes, fock::memory_bytes_for(numerics.engine, top));
-  try {
-    return std::min(top, fock::auto_cutoff_gaussian(form, std::max(numerics.tolerance * numerics.tolerance, 1e-300),
-                                                    numerics.engine, bound));
-  } catch (const fock::CutoffError& e) {
-    return std::min(top, e.needed_cutoff());
-  }
-}
-
 double bare_signed_log_negativity(const Source& source, const link::LinkModel& model, double distance_m) {
   return -std::log2(gaussian::smallest_pt_symplectic(bare_state(source, model, distance_m)));
 }

@@ -9,6 +9,7 @@
 
 #include "heraldry/measures.hpp"
 #include "heraldry/swap.hpp"
+#include "point/exact.hpp"
 
 namespace heraldry::point {
 
@@ -76,6 +77,24 @@ RelayResult evaluate_relay(const RelaySpec& spec) {
   out.arm = evaluate(arm);
   PointResult& r = out.relay;
   r.cutoff_needed = out.arm.cutoff_needed;
+  if (out.arm.method == Method::covariance) {
+    // Gaussian arms: the swap on the covariance matrices (exact), no Fock state.
+    gaussian::StandardForm form = source_state(arm.source);
+    for (const steps::StepSpec& s : arm.steps) {
+      steps::StepContext c;
+      c.frequency_hz = mode_frequency_hz(arm.source, s.mode);
+      c.link_a = arm.channel_a;
+      c.link_b = arm.channel_b;
+      const steps::Channels ch = s.type->channels(s, c);
+      if (ch.a) form = gaussian::apply(form, Mode::A, *ch.a);
+      if (ch.b) form = gaussian::apply(form, Mode::B, *ch.b);
+    }
+    const gaussian::StandardForm swapped = spec.gain == 1.0 ? gaussian::swap_unit_gain(form, form, eta)
+                                                            : gaussian::swap_feed_forward(form, form, spec.gain, eta);
+    r = detail::covariance_figures(swapped);
+    r.heralding_rate_hz = out.arm.heralding_rate_hz;
+    return out;
+  }
   if (out.arm.status != Status::ok) {
     // No heralded state to swap (or a separable one: local operations and classical
     // communication cannot entangle it, E_N = N = 0).

@@ -100,12 +100,28 @@ namespace detail {
 
 std::vector<double> job_costs(const scenario::Scenario& sc, const sweep::Plan& plan, const std::vector<sweep::Job>& jobs) {
   const point::Source source = sweep::source_of(sc);
-  const point::Numerics numerics = sweep::numerics_of(sc);
   std::vector<double> distance_cost;
+  // O(1) per distance (a grid may have a million): the cutoff the marginal tails of the bare
+  // link's state ask for, q^(N+1) = tolerance^2 with q = max(q_A, q_B) the larger thermal ratio,
+  // at most max_cutoff; separable distances take the exact paths, about a cutoff-10 Fock point.
+  // Only the order of the points depends on it.
+  const double max_cutoff = sc.numerics.max_cutoff;
+  const double log_tol2 = 2.0 * std::log(sc.numerics.tolerance);
   for (double d : sc.link.distances_m) {
-    // Separable distances take the exact paths: about the cost of a cutoff-10 Fock point.
-    const std::optional<int> n = point::bare_cutoff_estimate(point::bare_state(source, sc.link.model, d), numerics);
-    distance_cost.push_back(std::pow(std::min<double>(n.value_or(10), sc.numerics.max_cutoff), 3.5));
+    double n = max_cutoff;
+    try {
+      const gaussian::StandardForm s = point::bare_state(source, sc.link.model, d);
+      if (gaussian::smallest_pt_symplectic(s) >= 1.0) {
+        n = 10.0;
+      } else {
+        const double q = std::max({0.0, (s.a - 1.0) / (s.a + 1.0), (s.b - 1.0) / (s.b + 1.0)});
+        const double log_q = std::log(q);  // -inf for the vacuum, 0 when q rounds to 1
+        n = log_q < 0.0 ? std::clamp(log_tol2 / log_q, 1.0, max_cutoff) : max_cutoff;
+      }
+    } catch (const std::exception&) {
+      n = max_cutoff;
+    }
+    distance_cost.push_back(std::pow(n, 3.5));
   }
   std::vector<double> cost(jobs.size());
   for (std::size_t j = 0; j < jobs.size(); ++j) {

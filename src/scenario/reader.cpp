@@ -429,7 +429,12 @@ std::optional<Param> Table::param(std::string_view member, const Bounds& b, bool
     p.values.resize(count);
     for (std::size_t i = 0; i < count; ++i) {
       const double u = count == 1 ? 0.0 : static_cast<double>(i) / static_cast<double>(count - 1);
-      p.values[i] = log ? from * std::pow(to / from, u) : from + (to - from) * u;
+      // A ratio to/from that overflows (from = 5e-324) is spaced through the logarithms instead.
+      const double ratio = to / from;
+      p.values[i] = !log                    ? from + (to - from) * u
+                    : std::isfinite(ratio) ? from * std::pow(ratio, u)
+                                           : std::exp(std::log(from) + u * (std::log(to) - std::log(from)));
+      if (!b.contains(p.values[i])) r.fail("points", b.number_text() + " at every point of the range");
     }
     p.values.front() = from;
     p.values.back() = to;

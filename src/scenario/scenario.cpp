@@ -9,6 +9,7 @@
 #include <fstream>
 #include <iostream>
 #include <iterator>
+#include <limits>
 #include <memory>
 #include <sstream>
 
@@ -58,6 +59,10 @@ constexpr double celsius_zero_k = 273.15;
 // The largest per-mode cutoff the engine accepts; also bounds the photon numbers a step may name.
 constexpr int max_cutoff = 400;
 
+// The largest numerics.max_points a scenario may set: a run holds every point's result in
+// memory (a few hundred bytes each), so 1e9 points are already hundreds of GB.
+constexpr std::int64_t max_points_ceiling = 1000000000;
+
 const Bounds unit_closed = Bounds::closed(0.0, 1.0);
 const Bounds unit_open_closed = {0.0, 1.0, true, false};   // (0, 1]
 const Bounds unit_closed_open = {0.0, 1.0, false, true};   // [0, 1)
@@ -73,7 +78,9 @@ Table required_table(const Table& parent, std::string_view member, const std::st
 // Domain bounds: every value the kernels receive is one they can represent (finite sums,
 // products and exponentials, no overflow of 2 n + 1 or of rate x gate). The bounds are wide
 // physical ones; each is named in its key's message.
-const Bounds frequency_ghz_bounds = {0.0, 1000.0, true, false};    // (0, 1000] GHz
+// From 10 MHz: below it a room-temperature (10^4 K at most) bath holds more than ~10^7 photons
+// and a 5e-324 GHz carrier gives an infinite Planck occupation.
+const Bounds frequency_ghz_bounds = Bounds::closed(0.01, 1000.0);  // GHz
 const Bounds squeezing_db_bounds = Bounds::closed(0.0, 30.0);
 const Bounds occupation_bounds = Bounds::closed(0.0, 1.0e7);       // thermal photons per mode
 const Bounds bandwidth_mhz_bounds = {0.0, 1.0e6, true, false};     // up to 1 THz
@@ -86,8 +93,10 @@ const Bounds db_per_km_bounds = Bounds::closed(0.0, 1.0e4);
 const Bounds db_per_m_bounds = Bounds::closed(0.0, 1.0e3);
 const Bounds diameter_bounds = {0.0, 1000.0, true, false};         // m
 const Bounds distance_bounds = Bounds::closed(0.0, 1.0e7);         // m
-const Bounds loss_db_bounds = Bounds::closed(0.0, 300.0);
-const Bounds return_loss_bounds = {0.0, 300.0, true, false};
+// Losses in dB become power fractions below 1: 1 - 10^(-L/10) rounds to 1 beyond ~156 dB, and
+// 10^(-RL/10) of a return loss rounds to 1 below ~1e-15 dB (the kernels refuse a fraction of 1).
+const Bounds loss_db_bounds = Bounds::closed(0.0, 150.0);
+const Bounds return_loss_bounds = Bounds::closed(1e-9, 300.0);
 
 // A hardware number that may be swept: returns its first value as written; a list or range
 // also becomes a SweptSetting (an axis) applied by `apply` to copies of the structs.
@@ -209,7 +218,9 @@ link::Channel read_channel(const Table& direct, std::string_view mode) {
   const Table c = required_table(direct, mode, "a { transmissivity, bath_photons } table");
   c.only({"transmissivity", "bath_photons", "added_photons"});
   link::Channel ch;
-  ch.transmissivity = c.required_number("transmissivity", unit_closed);
+  // (0, 1]: a channel that transmits nothing has no state at its output to speak of (the link
+  // model refuses it).
+  ch.transmissivity = c.required_number("transmissivity", unit_open_closed);
   if (c.has("bath_photons") && c.has("added_photons"))
     c.fail("added_photons", "only one of bath_photons and added_photons");
   ch.bath_photons = c.number_or("bath_photons", occupation_bounds, 0.0);
@@ -307,6 +318,15 @@ link::Air read_air(const Table& a) {
   air.pressure_hpa = a.number_or("pressure_hpa", pressure_hpa_bounds, air.pressure_hpa);
   air.water_vapour_gm3 = a.number_or("water_vapour_gm3", vapour_bounds, air.water_vapour_gm3);
   air.rain_mm_per_h = a.number_or("rain_mm_per_h", rain_bounds, air.rain_mm_per_h);
+  // The gas model splits the total pressure into dry air and water vapour: the total cannot be
+  // below the vapour's partial pressure e = rho T / 216.7 (ITU-R P.676-13 Annex 1, Eq. 4).
+  if (air.model == link::AirModel::itu) {
+    const double e = link::vapour_pressure_hpa(air.water_vapour_gm3, air.temperature_k);
+    if (!(air.pressure_hpa >= e))
+      a.fail(a.has("pressure_hpa") ? "pressure_hpa" : "water_vapour_gm3",
+             "a barometric (total) pressure >= the water-vapour partial pressure (" + detail::format_number(e) +
+                 " hPa here: water_vapour_gm3 x temperature / 216.7)");
+  }
   const auto fixed = a.number("attenuation_db_per_km", db_per_km_bounds);
   if (air.model == link::AirModel::fixed) {
     if (!fixed) a.missing("attenuation_db_per_km", db_per_km_bounds.number_text() + " with model = \"fixed\"");
@@ -383,6 +403,19 @@ Link read_link(const Table& root, const Source& source, std::vector<SweptSetting
   if (const auto a = t.table("air")) {
     if (m.medium != link::Medium::air) t.fail("air", air_only, "a cryogenic line has no air path");
     m.air = read_air(*a);
+  }
+  // The ITU-R gas and rain models hold from 1 to 1000 GHz (P.676-13 Annex 1, P.838-3): a carrier
+  // outside is refused at its own key, before any kernel sees it.
+  if (m.medium == link::Medium::air && m.air.model == link::AirModel::itu) {
+    const Table src = required_table(root, "source", "a [source] table");
+    for (const Mode mode : {Mode::A, Mode::B}) {
+      // In GHz as the link model computes it (f x 1e-9: 1000 GHz becomes 1000.0000000000001).
+      const double f_ghz = link::mode_frequency_hz(m, mode) * 1e-9;
+      if (f_ghz >= 1.0 && f_ghz <= 1000.0) continue;
+      const char* own = mode == Mode::A ? "frequency_a_ghz" : "frequency_b_ghz";
+      src.fail(src.has(own) ? own : "frequency_ghz", "a frequency within 1-1000 GHz with the ITU-R air model",
+               "the range of ITU-R P.676-13 Annex 1 and P.838-3; set [link.air] model = \"fixed\" outside it");
+    }
   }
   if (const auto l = t.table("line")) {
     if (m.medium != link::Medium::line) t.fail("line", "no such table with medium = \"air\"", "set medium = \"line\"");
@@ -697,7 +730,7 @@ Numerics read_numerics(const Table& root) {
   Numerics n;
   const auto t = root.table("numerics");
   if (!t) return n;
-  t->only({"engine", "cutoff", "tolerance", "threads", "max_memory_mb", "max_cutoff"});
+  t->only({"engine", "cutoff", "tolerance", "threads", "max_memory_mb", "max_cutoff", "max_points"});
   n.engine = t->choice("engine", {"sector", "dense"}).value_or(0) == 0 ? EngineKind::sector : EngineKind::dense;
   if (const toml::node* c = t->find("cutoff")) {
     const std::string expected = "\"auto\" or an integer in [1, " + std::to_string(max_cutoff) + "]";
@@ -716,7 +749,54 @@ Numerics read_numerics(const Table& root) {
   n.threads = static_cast<int>(t->integer("threads", 0, 1024).value_or(n.threads));
   n.max_memory_mb = t->number_or("max_memory_mb", {0.0, 1.0e7, true, false}, n.max_memory_mb);
   n.max_cutoff = static_cast<int>(t->integer("max_cutoff", 1, max_cutoff).value_or(n.max_cutoff));
+  n.max_points = t->integer("max_points", 1, max_points_ceiling).value_or(n.max_points);
   return n;
+}
+
+// The size of each protocol's grid, axis by axis as sweep::make_plan lays it out (distance,
+// swept source and link settings, swept step parameters, then per counter the protocol uses:
+// efficiency, dark rate or dark count per gate, gate and dead time), multiplied with overflow
+// checks. A grid above numerics.max_points (or one whose count overflows) is refused naming the
+// protocol, its axes and their sizes.
+void check_grid_sizes(const Table& root, const Scenario& s) {
+  const toml::array& list = *root.find("protocol")->as_array();
+  for (std::size_t i = 0; i < s.protocols.size(); ++i) {
+    const Protocol& proto = s.protocols[i];
+    std::vector<std::pair<std::string, std::size_t>> axes{{"distance_m", s.link.distances_m.size()}};
+    for (const SweptSetting& st : s.settings)
+      if (st.counter.empty()) axes.emplace_back(st.name, st.values.size());
+    for (const Step& step : proto.steps)
+      for (std::size_t k = 0; k < step.params.size(); ++k)
+        if (step.params[k].swept())
+          axes.emplace_back(step.label + "." + std::string(step.type->params[k].key), step.params[k].values.size());
+    for (const Counter& c : s.counters) {
+      if (std::none_of(proto.steps.begin(), proto.steps.end(), [&](const Step& st) { return st.counter == c.name; }))
+        continue;
+      if (c.efficiency.swept()) axes.emplace_back("counters." + c.name + ".efficiency", c.efficiency.values.size());
+      if (c.dark_rate_hz && c.dark_rate_hz->swept())
+        axes.emplace_back("counters." + c.name + ".dark_rate_hz", c.dark_rate_hz->values.size());
+      else if (c.dark_per_gate.swept())
+        axes.emplace_back("counters." + c.name + ".dark_per_gate", c.dark_per_gate.values.size());
+      for (const SweptSetting& st : s.settings)
+        if (st.counter == c.name) axes.emplace_back(st.name, st.values.size());
+    }
+    const auto limit = static_cast<std::size_t>(s.numerics.max_points);
+    std::size_t count = 1;
+    bool overflow = false;
+    std::string sizes;
+    for (const auto& [name, n] : axes) {
+      sizes += (sizes.empty() ? "" : " x ") + name + " " + std::to_string(n);
+      if (!overflow && n != 0 && count > std::numeric_limits<std::size_t>::max() / n) overflow = true;
+      if (!overflow) count *= n;
+    }
+    if (!overflow && count <= limit) continue;
+    const Table p(root.doc(), *list.get(i)->as_table(), "protocol[" + std::to_string(i) + "]",
+                  Document::line(*list.get(i)));
+    p.fail("name", "a grid of at most numerics.max_points = " + std::to_string(limit) + " points",
+           "its grid has " + (overflow ? std::string("more than 1.8e19") : std::to_string(count)) + " points: " + sizes +
+               "; use fewer values on an axis, or raise numerics.max_points (at most " +
+               std::to_string(max_points_ceiling) + ")");
+  }
 }
 
 Output read_output(const Table& root) {
@@ -751,6 +831,7 @@ Scenario parse(std::string_view text, const std::string& file_name) {
       detail::raise(file_name, pr.relay->line, pr.name + ":relay", "{ ... }",
                     "a modelled link (a relay splits the path at its midpoint; [link.direct] has no midpoint)");
   s.numerics = read_numerics(root);
+  check_grid_sizes(root, s);
   s.output = read_output(root);
   return s;
 }

@@ -13,7 +13,7 @@ const ParamSchema loss_params[] = {
     {"transmissivity", "1", "power transmissivity of the extra loss", ParamSchema::Type::number, {0.0, 1.0, true, false},
      std::nullopt, "loss_db", {0.0, unbounded, false, false}, &transmissivity_from_db},
     {"temperature_k", "K", "temperature of what couples in at the loss", ParamSchema::Type::number,
-     {0.0, unbounded, false, false}, 0.0},
+     {0.0, 1.0e4, false, false}, 0.0},  // up to 10^4 K, as every temperature of a scenario
 };
 
 Channels channels(const StepSpec& step, const StepContext& context) {

@@ -19,10 +19,16 @@
 
 namespace heraldry::sweep {
 
+// The bound of --threads and [numerics] threads; OMP_NUM_THREADS is held to it too (libgomp
+// would otherwise try to allocate a pool for 2^31 threads and end the process).
+constexpr int max_threads = 1024;
+
 int thread_count(int requested) {
-  if (requested > 0) return requested;
+  if (requested > 0) return std::min(requested, max_threads);
 #if defined(HERALDRY_HAVE_OPENMP)
-  return std::max(1, omp_get_max_threads());
+  const int n = omp_get_max_threads();
+  if (n > max_threads) omp_set_num_threads(max_threads);
+  return std::clamp(n, 1, max_threads);
 #else
   return 1;
 #endif

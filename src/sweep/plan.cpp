@@ -1,6 +1,7 @@
 // The grid of a scenario and the mapping of one grid point to the physics kernel's PointSpec.
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <stdexcept>
 
 #include "heraldry/sweep.hpp"
@@ -26,8 +27,13 @@ std::vector<std::size_t> ProtocolPlan::shape() const {
 }
 
 std::size_t ProtocolPlan::size() const {
+  // Parse refuses grids above numerics.max_points, so the product never overflows here.
   std::size_t n = 1;
-  for (const auto& a : axes) n *= a.values.size();
+  for (const auto& a : axes) {
+    if (!a.values.empty() && n > std::numeric_limits<std::size_t>::max() / a.values.size())
+      throw std::overflow_error("ProtocolPlan::size: the point count of '" + name + "' overflows");
+    n *= a.values.size();
+  }
   return n;
 }
 
