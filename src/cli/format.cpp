@@ -14,7 +14,7 @@ std::string describe_crossing(const Crossing& c) {
   char buf[64];
   switch (c.kind) {
     case Crossing::Kind::crossed: std::snprintf(buf, sizeof buf, "%.4g m", c.distance); break;
-    case Crossing::Kind::never_positive: std::snprintf(buf, sizeof buf, "never"); break;
+    case Crossing::Kind::never_positive: std::snprintf(buf, sizeof buf, "no distance of the grid"); break;
     case Crossing::Kind::beyond_grid: std::snprintf(buf, sizeof buf, "> %.4g m", c.distance); break;
     case Crossing::Kind::never_crosses: std::snprintf(buf, sizeof buf, "never breaks (pure loss)"); break;
   }
@@ -39,6 +39,18 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
                   describe_crossing(v.fidelity_half).c_str());
   }
   out << buf;
+  // Swept source or link hardware: the lines above and the file's /gaussian and /link hold the
+  // first value of each; every protocol below is compared with the bare link of its own setting.
+  std::string first_values;
+  for (const auto& st : sc.settings) {
+    if (!st.counter.empty() || st.values.empty()) continue;
+    char one[160];
+    std::snprintf(one, sizeof one, "%s%s = %g", first_values.empty() ? "" : ", ", st.name.c_str(), st.values.front());
+    first_values += one;
+  }
+  if (!first_values.empty())
+    out << "  (the bare link above is that of the first value of the swept hardware: " << first_values
+        << "; each protocol below is compared with the bare link of its own best setting)\n";
   if (!v.measured && v.survival.kind == Crossing::Kind::crossed) {
     std::snprintf(buf, sizeof buf,
                   "  beyond %.4g m the link's state is separable: no local stage (subtraction, addition, amplifier, "
@@ -46,7 +58,8 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
                   v.survival.distance);
     out << buf;
   } else if (!v.measured && v.survival.kind == Crossing::Kind::never_positive) {
-    out << "  the link's state is separable over the whole grid: no local stage can restore entanglement\n";
+    out << "  the link's state is separable over the whole grid" << (first_values.empty() ? "" : " (at that setting)")
+        << ": no local stage can restore entanglement there\n";
   }
   if (const std::string caution = antenna_caution(sc); !caution.empty()) out << "  " << caution << "\n";
   if (v.relay_log_negativity)
