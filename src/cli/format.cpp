@@ -14,7 +14,7 @@ std::string describe_crossing(const Crossing& c) {
   char buf[64];
   switch (c.kind) {
     case Crossing::Kind::crossed: std::snprintf(buf, sizeof buf, "%.4g m", c.distance); break;
-    case Crossing::Kind::never_positive: std::snprintf(buf, sizeof buf, "no distance of the grid"); break;
+    case Crossing::Kind::never_positive: std::snprintf(buf, sizeof buf, "never"); break;
     case Crossing::Kind::beyond_grid: std::snprintf(buf, sizeof buf, "> %.4g m", c.distance); break;
     case Crossing::Kind::never_crosses: std::snprintf(buf, sizeof buf, "never breaks (pure loss)"); break;
   }
@@ -35,8 +35,11 @@ std::string format_verdict(const scenario::Scenario& sc, const verdict::Verdict&
     std::snprintf(buf, sizeof buf, "Verdict at the target distance %.4g m (%s)\n", v.target_m, sc.title.c_str());
     out << buf;
     std::snprintf(buf, sizeof buf, "  bare link: E_N %.4f ebit, fidelity %.4f; entanglement survives to %s, fidelity > 1/2 to %s\n",
-                  v.bare_log_negativity, v.bare_fidelity, describe_crossing(v.survival).c_str(),
-                  describe_crossing(v.fidelity_half).c_str());
+                  v.bare_log_negativity, v.bare_fidelity,
+                  v.survival.kind == Crossing::Kind::never_positive ? "no distance of the grid"
+                                                                    : describe_crossing(v.survival).c_str(),
+                  v.fidelity_half.kind == Crossing::Kind::never_positive ? "no distance of the grid"
+                                                                         : describe_crossing(v.fidelity_half).c_str());
   }
   out << buf;
   // Swept source or link hardware: the lines above and the file's /gaussian and /link hold the
