@@ -15,6 +15,7 @@
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
+#include <sstream>
 #include <string>
 #include <vector>
 
@@ -42,6 +43,32 @@ TEST_CASE("heraldry example prints the demo scenario, which check accepts") {
   const Outcome ck = run_tool("check \"" + source("protocols/demo.toml") + "\"");
   CHECK(ck.code == 0);
   CHECK(ck.output.find("valid scenario") != std::string::npos);
+}
+
+TEST_CASE("heraldry example explains the hardware keys, and its antenna lines are keys check accepts") {
+  const Outcome ex = run_tool("example");
+  REQUIRE(ex.code == 0);
+  for (const char* key : {"spillover_loss", "spillover_temperature_k", "ohmic_loss_db", "physical_temperature_k",
+                          "return_loss_db", "mismatch_temperature_k", "measured_squeezing_db",
+                          "measured_antisqueezing_db", "[source.covariance]", "frequency_a_ghz", "added_photons"})
+    CHECK(ex.output.find(key) != std::string::npos);
+  // The commented antenna lines, uncommented into the demo's [link.antenna] table.
+  std::string antenna, text = ex.output.substr(0, ex.output.find("# ---- More keys"));
+  std::istringstream lines(ex.output);
+  for (std::string line; std::getline(lines, line);)
+    if (line.rfind("#   ", 0) == 0 && line.find(" = ") != std::string::npos &&
+        (line.find("_loss") != std::string::npos || line.find("temperature_k") != std::string::npos))
+      antenna += line.substr(4) + "\n";
+  CHECK(std::count(antenna.begin(), antenna.end(), '\n') == 6);
+  text.insert(text.find("[link.antenna]\n") + 15, antenna);
+  const auto dir = std::filesystem::temp_directory_path() / "heraldry_example_keys";
+  std::filesystem::create_directories(dir);
+  const auto path = dir / "example.toml";
+  std::ofstream(path) << text;
+  const Outcome ck = run_tool("check \"" + path.string() + "\"");
+  CAPTURE(ck.output);
+  CHECK(ck.code == 0);
+  std::filesystem::remove_all(dir);
 }
 
 TEST_CASE("heraldry check prints the run-time estimate, sweep plus verdict, and the times on more threads") {

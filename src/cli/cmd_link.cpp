@@ -178,6 +178,28 @@ int cmd_link(const std::string& path, bool json) {
 int cmd_example() {
   const auto text = scenario::demo_text();
   std::fwrite(text.data(), 1, text.size(), stdout);
+  // The keys the demo does not use, as comments (the output stays a valid scenario).
+  std::fputs(R"(
+# ---- More keys (README "Scenario keys"; docs/hardware.md for the antenna stages) ----------
+# Real antennas, in [link.antenna] (both ends) or [link.source_antenna] / [link.receiver_antenna]:
+#   spillover_loss = 0.02            # power of the feed pattern that misses the reflector
+#   spillover_temperature_k = 290.0  # what it sees instead (the roof, the sky near the horizon)
+#   ohmic_loss_db = 0.1              # conductor loss of the feed ...
+#   physical_temperature_k = 300.0   # ... at this temperature
+#   return_loss_db = 20.0            # mismatch at the feed ...
+#   mismatch_temperature_k = 0.05    # ... reflected from this side
+# Each stage is a beam splitter with a thermal port at its temperature: at 290 K a spillover of
+# a few percent adds tens of photons and breaks one-way entanglement at any distance.
+# A source as measured, in [source] instead of squeezing_db / thermal_photons:
+#   measured_squeezing_db = 5.2      # EPR variance below vacuum, dB
+#   measured_antisqueezing_db = 7.9  # EPR variance above vacuum, dB
+# or a whole covariance matrix, [source.covariance] matrix = [[...], ...], vacuum_variance = 1.
+# A nondegenerate source: frequency_a_ghz = 5.2 and frequency_b_ghz = 5.6 in [source].
+# A measured link without a distance axis: [link.direct] with a = { transmissivity = 0.9,
+#   bath_photons = 0.01 } and b = { transmissivity = 0.6, added_photons = 0.3 }.
+# Sweepable keys (a list or { from, to, points } adds an axis): README "Sweepable keys".
+)",
+             stdout);
   return 0;
 }
 
