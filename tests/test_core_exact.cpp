@@ -235,6 +235,27 @@ TEST_CASE("a point far beyond survival with a bath of 1250 photons is exact and 
   CHECK(sum->probability == doctest::Approx(num->probability).epsilon(1e-12));
 }
 
+TEST_CASE("at separable points the photon-number double sum equals the Gaussian sum (two independent exact paths)") {
+  // Both modes heralded beyond survival: the joint law's recurrence subtracts there (a3 >= 0);
+  // the Gaussian-sum path shares none of its arithmetic.
+  for (const link::Channel ch : {link::Channel{0.5, 2.0}, link::Channel{0.3, 40.0}, link::Channel{0.05, 600.0}}) {
+    CAPTURE(ch.bath_photons);
+    PointSpec p = noisy_point();
+    p.source.squeezing_r = 0.9;
+    p.channel_a = {0.6, 3.0};
+    p.channel_b = ch;
+    p.steps.push_back(tap(Mode::A, 0.9, 0));
+    p.steps.push_back(tap(Mode::B, 0.8, 0));
+    REQUIRE(point::detail::separable(bare_state(p)));
+    const auto sum = point::detail::gaussian_sum(p, bare_state(p), 1);
+    const auto num = point::detail::photon_number(p, bare_state(p), 1);
+    REQUIRE(sum.has_value());
+    REQUIRE(num.has_value());
+    CHECK(num->probability == doctest::Approx(sum->probability).epsilon(1e-10));
+    CHECK(num->genuine_probability == doctest::Approx(sum->genuine_probability).epsilon(1e-10));
+  }
+}
+
 TEST_CASE("a set cancel flag stops an evaluation with point::Cancelled") {
   std::atomic<bool> stop{true};
   PointSpec p = noisy_point();
