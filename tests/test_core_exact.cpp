@@ -256,6 +256,22 @@ TEST_CASE("at separable points the photon-number double sum equals the Gaussian 
   }
 }
 
+TEST_CASE("a separable point small enough for the Fock engine gets a computed fidelity, not the bound") {
+  // Mode b through tau = 0.5 with n_E = 2 ((1 - tau) n_E = 1 >= tau: entanglement breaking,
+  // Holevo 2008) holds ~1.4 photons: the photon-number path gives P, the Fock engine F, which a
+  // separable resource keeps <= 1/2 (Braunstein, Fuchs & Kimble 2000).
+  PointSpec p = noisy_point();
+  p.channel_b = {0.5, 2.0};
+  p.steps.push_back(make("scissors", Mode::B, {{"gain", 1.2}, {"photon_source_efficiency", 0.9}}, 1));
+  const PointResult r = evaluate(p);
+  CHECK(r.status == Status::separable_input);
+  CHECK(r.method == Method::photon_number);
+  CHECK(r.fidelity_bound == 0);
+  CHECK(r.fidelity > 0.0);
+  CHECK(r.fidelity <= 0.5);
+  CHECK(r.log_negativity == 0.0);
+}
+
 TEST_CASE("a set cancel flag stops an evaluation with point::Cancelled") {
   std::atomic<bool> stop{true};
   PointSpec p = noisy_point();

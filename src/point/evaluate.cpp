@@ -436,6 +436,18 @@ PointResult evaluate(const PointSpec& spec) {
       if (r.status == Status::separable_input) {
         r.truncation_error = num->tail / r.success_probability;
         r.amplifier_cut_fraction = num->amplifier_cut_fraction;
+        // Where the state is small enough for the Fock engine within max_cutoff (the marginal
+        // tails q^(N+1) = tol^2, q the larger thermal ratio: a lower bound on the cutoff), its
+        // fidelity replaces the bound when it meets the tolerance.
+        const double q = std::max((form.a - 1.0) / (form.a + 1.0), (form.b - 1.0) / (form.b + 1.0));
+        const double tol = spec.numerics.tolerance;
+        if (q <= 0.0 || 2.0 * std::log(tol) / std::log(q) <= spec.numerics.max_cutoff) {
+          const PointResult f = fock_path(spec, form, first);
+          if (f.status == Status::ok && f.fidelity <= 0.5 + measure_slack) {
+            r.fidelity = std::min(f.fidelity, 0.5);
+            r.fidelity_bound = 0;
+          }
+        }
       }
     } else {
       // No closed form for these steps: the Fock engine, whose entanglement figures are 0 by
