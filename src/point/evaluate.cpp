@@ -33,6 +33,18 @@ StepContext step_context(const PointSpec& spec, const StepSpec& s, Weighting wei
   return c;
 }
 
+gaussian::StandardForm gaussian_prefix(const PointSpec& spec, std::size_t& first) {
+  gaussian::StandardForm form = source_state(spec.source);
+  for (first = 0; first < spec.steps.size(); ++first) {
+    const StepSpec& s = spec.steps[first];
+    if (!s.type->channels) break;
+    const steps::Channels ch = s.type->channels(s, step_context(spec, s, Weighting::full, nullptr));
+    if (ch.a) form = gaussian::apply(form, Mode::A, *ch.a);
+    if (ch.b) form = gaussian::apply(form, Mode::B, *ch.b);
+  }
+  return form;
+}
+
 }  // namespace detail
 
 namespace {
@@ -118,10 +130,6 @@ bool any_dark_counts(const PointSpec& spec, std::size_t first) {
   return false;
 }
 
-StepContext context_for(const PointSpec& spec, const StepSpec& s, Weighting weighting, fock::Workspace* work) {
-  return detail::step_context(spec, s, weighting, work);
-}
-
 fock::SectorState convert(const gaussian::StandardForm& f, int n, fock::SectorState*) { return fock::sector_state(f, n); }
 fock::DenseState convert(const gaussian::StandardForm& f, int n, fock::DenseState*) { return fock::dense_state(f, n); }
 
@@ -166,7 +174,7 @@ public:
     double cut = 0.0;
     for (std::size_t i = first_; i < spec_.steps.size(); ++i) {
       detail::poll(spec_.numerics);
-      StepContext context = context_for(spec_, spec_.steps[i], weighting, &work_);
+      StepContext context = detail::step_context(spec_, spec_.steps[i], weighting, &work_);
       context.amplifier_cut_fraction = cut;
       steps::apply(state, spec_.steps[i], context);
       cut = context.amplifier_cut_fraction;
@@ -411,15 +419,8 @@ PointResult evaluate(const PointSpec& spec) {
   detail::poll(spec.numerics);
   // Gaussian prefix: leading link and loss steps act on the covariance matrix (exact), so the
   // state enters Fock space once, after the last Gaussian step (docs/physics.md §2.3).
-  gaussian::StandardForm form = source_state(spec.source);
   std::size_t first = 0;
-  for (; first < spec.steps.size(); ++first) {
-    const StepSpec& s = spec.steps[first];
-    if (!s.type->channels) break;
-    const steps::Channels ch = s.type->channels(s, context_for(spec, s, Weighting::full, nullptr));
-    if (ch.a) form = gaussian::apply(form, Mode::A, *ch.a);
-    if (ch.b) form = gaussian::apply(form, Mode::B, *ch.b);
-  }
+  const gaussian::StandardForm form = detail::gaussian_prefix(spec, first);
   // The cheapest exact path (docs/physics.md §14).
   PointResult r;
   if (first == spec.steps.size()) {  // Gaussian steps only

@@ -151,7 +151,6 @@ bool breaks_entanglement(const PointSpec& spec, std::size_t first) {
 }
 
 std::optional<SumFigures> gaussian_sum(const PointSpec& spec, const gaussian::StandardForm& form, std::size_t first) {
-  std::vector<const StepSpec*> todo;
   for (std::size_t i = first; i < spec.steps.size(); ++i) {
     const StepSpec& s = spec.steps[i];
     if (s.type->channels) continue;

@@ -16,6 +16,10 @@ namespace heraldry::point::detail {
 steps::StepContext step_context(const PointSpec& spec, const steps::StepSpec& step, steps::Weighting weighting,
                                 fock::Workspace* work);
 
+/// The Gaussian prefix: the source through the leading channel steps (link, loss) on the
+/// covariance matrix; `first` receives the index of the first step that is not Gaussian.
+gaussian::StandardForm gaussian_prefix(const PointSpec& spec, std::size_t& first);
+
 /// Throws Cancelled when the point's cancel flag is set.
 void poll(const Numerics& numerics);
 

@@ -19,31 +19,14 @@ namespace {
 // leading Gaussian steps on the covariance matrix, the closed form with the trace deficit as
 // ledger, then the remaining steps as Kraus sums.
 fock::SectorState arm_state(const PointSpec& spec, int cutoff) {
-  auto context = [&](const steps::StepSpec& s, fock::Workspace* work) {
-    steps::StepContext c;
-    c.counter = s.type->uses_counter ? &spec.counters[static_cast<std::size_t>(s.counter)] : nullptr;
-    c.frequency_hz = mode_frequency_hz(spec.source, s.mode);
-    c.link_a = spec.channel_a;
-    c.link_b = spec.channel_b;
-    c.weighting = steps::Weighting::full;
-    c.work = work;
-    return c;
-  };
-  gaussian::StandardForm form = source_state(spec.source);
   std::size_t first = 0;
-  for (; first < spec.steps.size(); ++first) {
-    const steps::StepSpec& s = spec.steps[first];
-    if (!s.type->channels) break;
-    const steps::Channels ch = s.type->channels(s, context(s, nullptr));
-    if (ch.a) form = gaussian::apply(form, Mode::A, *ch.a);
-    if (ch.b) form = gaussian::apply(form, Mode::B, *ch.b);
-  }
+  const gaussian::StandardForm form = detail::gaussian_prefix(spec, first);
   fock::SectorState state = fock::sector_state(form, cutoff);
   state.add_truncation_loss(fock::gaussian_trace_deficit(form, cutoff) - state.truncation_loss());
   fock::Workspace work;
   double cut = 0.0;
   for (std::size_t i = first; i < spec.steps.size(); ++i) {
-    steps::StepContext c = context(spec.steps[i], &work);
+    steps::StepContext c = detail::step_context(spec, spec.steps[i], steps::Weighting::full, &work);
     c.amplifier_cut_fraction = cut;
     steps::apply(state, spec.steps[i], c);
     cut = c.amplifier_cut_fraction;
@@ -79,16 +62,8 @@ RelayResult evaluate_relay(const RelaySpec& spec) {
   r.cutoff_needed = out.arm.cutoff_needed;
   if (out.arm.method == Method::covariance) {
     // Gaussian arms: the swap on the covariance matrices (exact), no Fock state.
-    gaussian::StandardForm form = source_state(arm.source);
-    for (const steps::StepSpec& s : arm.steps) {
-      steps::StepContext c;
-      c.frequency_hz = mode_frequency_hz(arm.source, s.mode);
-      c.link_a = arm.channel_a;
-      c.link_b = arm.channel_b;
-      const steps::Channels ch = s.type->channels(s, c);
-      if (ch.a) form = gaussian::apply(form, Mode::A, *ch.a);
-      if (ch.b) form = gaussian::apply(form, Mode::B, *ch.b);
-    }
+    std::size_t first = 0;
+    const gaussian::StandardForm form = detail::gaussian_prefix(arm, first);
     const gaussian::StandardForm swapped = spec.gain == 1.0 ? gaussian::swap_unit_gain(form, form, eta)
                                                             : gaussian::swap_feed_forward(form, form, spec.gain, eta);
     r = detail::covariance_figures(swapped);

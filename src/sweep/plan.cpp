@@ -141,6 +141,31 @@ point::Numerics numerics_of(const scenario::Scenario& sc) {
   return n;
 }
 
+namespace {
+
+// The swept hardware settings at this point, applied to copies of the source, the link model
+// and the counters.
+struct Hardware {
+  scenario::Source source;
+  link::LinkModel model;
+  std::vector<scenario::Counter> counters;
+};
+
+Hardware hardware_at(const scenario::Scenario& sc, const ProtocolPlan& pp, std::span<const std::size_t> index) {
+  Hardware h{sc.source, sc.link.model, sc.counters};
+  scenario::Counter none;
+  for (std::size_t a = 1; a < pp.axes.size(); ++a) {
+    const Axis& ax = pp.axes[a];
+    if (ax.setting < 0) continue;
+    const scenario::SweptSetting& st = sc.settings.at(static_cast<std::size_t>(ax.setting));
+    st.apply(h.source, h.model, ax.counter >= 0 ? h.counters.at(static_cast<std::size_t>(ax.counter)) : none,
+             ax.values[index[a]]);
+  }
+  return h;
+}
+
+}  // namespace
+
 point::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::size_t protocol,
                          std::span<const std::size_t> index, double distance_m) {
   const ProtocolPlan& pp = plan.protocols.at(protocol);
@@ -148,19 +173,10 @@ point::PointSpec resolve(const scenario::Scenario& sc, const Plan& plan, std::si
   if (index.size() != pp.axes.size()) throw std::invalid_argument("resolve: index rank differs from the grid");
   const double d = distance_m >= 0.0 ? distance_m : pp.axes[0].values[index[0]];
 
-  // The swept hardware settings at this point, applied to copies of the source, the link model
-  // and the counters.
-  scenario::Source source = sc.source;
-  link::LinkModel model = sc.link.model;
-  std::vector<scenario::Counter> counters = sc.counters;
-  scenario::Counter none;
-  for (std::size_t a = 1; a < pp.axes.size(); ++a) {
-    const Axis& ax = pp.axes[a];
-    if (ax.setting < 0) continue;
-    const scenario::SweptSetting& st = sc.settings.at(static_cast<std::size_t>(ax.setting));
-    st.apply(source, model, ax.counter >= 0 ? counters.at(static_cast<std::size_t>(ax.counter)) : none,
-             ax.values[index[a]]);
-  }
+  const Hardware hw = hardware_at(sc, pp, index);
+  const scenario::Source& source = hw.source;
+  const link::LinkModel& model = hw.model;
+  const std::vector<scenario::Counter>& counters = hw.counters;
 
   point::PointSpec spec;
   spec.source = source_of(source);
@@ -215,17 +231,7 @@ point::PointResult evaluate_resolved(const scenario::Scenario& sc, const Plan& p
   if (!proto.relay) return point::evaluate(spec);
   // The link model with this point's swept hardware (as resolve applies it).
   const ProtocolPlan& pp = plan.protocols.at(protocol);
-  scenario::Source source = sc.source;
-  link::LinkModel model = sc.link.model;
-  std::vector<scenario::Counter> counters = sc.counters;
-  scenario::Counter none;
-  for (std::size_t a = 1; a < pp.axes.size(); ++a) {
-    const Axis& ax = pp.axes[a];
-    if (ax.setting < 0) continue;
-    sc.settings.at(static_cast<std::size_t>(ax.setting))
-        .apply(source, model, ax.counter >= 0 ? counters.at(static_cast<std::size_t>(ax.counter)) : none,
-               ax.values[index[a]]);
-  }
+  const link::LinkModel model = hardware_at(sc, pp, index).model;
   const double d = distance_m >= 0.0 ? distance_m : pp.axes[0].values[index[0]];
   point::RelaySpec relay{point::relay_arm(spec, model, d), proto.relay->bell_efficiency, proto.relay->gain};
   return point::evaluate_relay(relay).relay;
