@@ -256,22 +256,35 @@ std::optional<NumberFigures> photon_number(const PointSpec& spec, const gaussian
       poll(spec.numerics);
       if (on[k]) e[k] = on[k]->type->effect(*on[k], step_context(spec, *on[k], weighting, nullptr), static_cast<int>(depth[k]));
     }
-    if (!on[0] || !on[1]) {
-      // One heralded mode: its thermal marginal, p(n) = m^n / (m + 1)^{n+1}.
-      const int k = on[0] ? 0 : 1;
+    // Each effect tends to a limit L (1 for a click, 0 for silence or exact counts) and differs
+    // from it by more than 1e-20 only up to some depth K: with e = L + delta,
+    //   P = L_A L_B + L_A sum_m delta_B p_B + L_B sum_n delta_A p_A + sum_{n<K_A, m<K_B} delta_A delta_B p,
+    // so the double sum runs over K_A x K_B terms only (the marginals p_A, p_B are thermal).
+    auto marginal = [&](int k, const std::vector<double>& x) {  // sum_n x(n) m^n / (m + 1)^{n+1}
       const long double m = mean[k], ratio = m / (m + 1);
       long double p = 1 / (m + 1), sum = 0;
-      for (std::size_t n = 0; n < e[k].size(); ++n, p *= ratio) sum += p * e[k][n];
-      return static_cast<double>(sum);
+      for (std::size_t n = 0; n < x.size(); ++n, p *= ratio) sum += p * x[n];
+      return sum;
+    };
+    if (!on[0] || !on[1]) return static_cast<double>(marginal(on[0] ? 0 : 1, e[on[0] ? 0 : 1]));
+    std::array<long double, 2> limit{}, single{};
+    std::array<std::vector<double>, 2> delta;
+    for (int k = 0; k < 2; ++k) {
+      limit[k] = e[k].back();
+      std::size_t top = e[k].size();
+      while (top > 0 && std::abs(e[k][top - 1] - static_cast<double>(limit[k])) <= 1e-20) --top;
+      delta[k].resize(top);
+      for (std::size_t n = 0; n < top; ++n) delta[k][n] = e[k][n] - static_cast<double>(limit[k]);
+      single[k] = marginal(k, delta[k]);
     }
-    // Both: the double sum, row by row (the recurrence of photon_numbers, never stored whole).
+    // The double sum, row by row (the recurrence of photon_numbers, never stored whole).
     const long double A = 0.5L * (form.a - 1.0), B = 0.5L * (form.b - 1.0), C = 0.5L * form.c;
     const long double a0 = (1 + A) * (1 + B) - C * C, a1 = A * (1 + B) - C * C, a2 = B * (1 + A) - C * C,
                       a3 = A * B - C * C;
-    const std::size_t nb = e[1].size();
+    const std::size_t nb = delta[1].size();
     std::vector<long double> prev(nb, 0.0L), cur(nb, 0.0L);
-    long double total = 0;
-    for (std::size_t n = 0; n < e[0].size(); ++n) {
+    long double both = 0;
+    for (std::size_t n = 0; n < delta[0].size(); ++n) {
       if ((n & 63) == 0) poll(spec.numerics);
       long double row = 0;
       for (std::size_t m = 0; m < nb; ++m) {
@@ -280,12 +293,12 @@ std::optional<NumberFigures> photon_number(const PointSpec& spec, const gaussian
         if (m > 0) v += a2 * cur[m - 1];
         if (n > 0 && m > 0) v -= a3 * prev[m - 1];
         cur[m] = v / a0;
-        row += cur[m] * e[1][m];
+        row += cur[m] * delta[1][m];
       }
-      total += row * e[0][n];
+      both += row * delta[0][n];
       std::swap(prev, cur);
     }
-    return static_cast<double>(total);
+    return static_cast<double>(limit[0] * limit[1] + limit[0] * single[1] + limit[1] * single[0] + both);
   };
   out.probability = probability(Weighting::full);
   out.genuine_probability = dark ? probability(Weighting::genuine) : out.probability;
